@@ -1,27 +1,40 @@
 #pragma once
-// Paths the tests need, injected by CTest through the environment (see tests/CMakeLists.txt), so that tests are
-// hermetic and run from any working directory.
+// Paths the tests need. CMake bakes the source tree, build tree and runnel executable into each test as
+// RUNNEL_DEFAULT_* definitions (tests/CMakeLists.txt); environment variables RUNNEL_SOURCE_DIR, RUNNEL_BINARY_DIR
+// and RUNNEL_EXE override them, so tests run from any working directory and can be pointed elsewhere.
 
 #include <cstdlib>
 #include <filesystem>
 #include <stdexcept>
 #include <string>
 
+#ifndef RUNNEL_DEFAULT_SOURCE_DIR
+#define RUNNEL_DEFAULT_SOURCE_DIR ""
+#endif
+#ifndef RUNNEL_DEFAULT_BINARY_DIR
+#define RUNNEL_DEFAULT_BINARY_DIR ""
+#endif
+#ifndef RUNNEL_DEFAULT_EXE
+#define RUNNEL_DEFAULT_EXE ""
+#endif
+
 namespace libseq::test {
 
-inline std::filesystem::path env_path(const char* name) {
+inline std::filesystem::path env_path(const char* name, const char* fallback) {
   const char* value = std::getenv(name);
-  if (value == nullptr || *value == '\0') {
-    throw std::runtime_error(std::string("environment variable ") + name + " is not set; run the tests with ctest");
-  }
-  return value;
+  if (value != nullptr && *value != '\0') return value;
+  if (*fallback != '\0') return fallback;
+  throw std::runtime_error(std::string(name) + " is neither set in the environment nor known to the build");
 }
 
 /// Root of the source tree (validation/, data-samples/ live below it).
-inline std::filesystem::path source_dir() { return env_path("RUNNEL_SOURCE_DIR"); }
+inline std::filesystem::path source_dir() { return env_path("RUNNEL_SOURCE_DIR", RUNNEL_DEFAULT_SOURCE_DIR); }
 
 /// Root of the build tree; tests write scratch files below it.
-inline std::filesystem::path binary_dir() { return env_path("RUNNEL_BINARY_DIR"); }
+inline std::filesystem::path binary_dir() { return env_path("RUNNEL_BINARY_DIR", RUNNEL_DEFAULT_BINARY_DIR); }
+
+/// The runnel executable (CLI tests).
+inline std::filesystem::path runnel_exe() { return env_path("RUNNEL_EXE", RUNNEL_DEFAULT_EXE); }
 
 /// A fresh scratch directory for one test, removed and re-created on each call.
 inline std::filesystem::path scratch_dir(const std::string& name) {
