@@ -29,7 +29,7 @@ TEST(Conformal, RankIsTheFiniteSampleCeilingAndCanExceedN) {
   EXPECT_EQ(conformal_rank(99, 0.1), 90u);  // (n + 1)(1 - α) = 90 exactly: no rounding up
   EXPECT_EQ(conformal_rank(50, 0.1), 46u);  // 45.9
   EXPECT_EQ(conformal_rank(19, 0.05), 19u);
-  EXPECT_EQ(conformal_rank(5, 0.1), 6u);    // 5.4 -> 6 > 5
+  EXPECT_EQ(conformal_rank(5, 0.1), 6u);  // 5.4 -> 6 > 5
   const std::vector<double> scores = {0.3, 0.1, 0.5, 0.2, 0.4};
   EXPECT_TRUE(std::isinf(conformal_quantile(scores, 0.1)));
   EXPECT_DOUBLE_EQ(conformal_quantile(scores, 0.4), 0.4);  // k = ceil(3.6) = 4: fourth smallest
@@ -114,8 +114,7 @@ TEST(Conformal, CqrReachesNominalCoverageOnHeteroscedasticData) {
       ConformalOptions options;
       options.score = ConformalScore::quantile_pair;
       options.miscoverage = alpha;
-      const auto calibrator =
-          Calibrator::fit({.observed = cal.y, .lower = cal.lower, .upper = cal.upper}, options);
+      const auto calibrator = Calibrator::fit({.observed = cal.y, .lower = cal.lower, .upper = cal.upper}, options);
       q_sum += calibrator.state().leads[0].score_quantile;
       const auto test = heteroscedastic_sample(rng, m, half_width);
       std::size_t covered = 0, raw_covered = 0;
@@ -325,7 +324,7 @@ TEST(AdaptiveConformal, ExtremeLevelsGiveEmptyOrUnboundedIntervals) {
   options.step_size = 1.0;
   options.miscoverage = 0.5;
   AdaptiveConformal aci(options, std::vector<double>{0.1, 0.2, 0.3});
-  // Three misses in a row: α = 0.5 + 3 (0.5 - 1) < 0 ... each miss lowers α by 0.5.
+  // γ = 1, α = 0.5: a miss lowers α by 0.5 (to 0, the whole line); each cover raises it by 0.5 (to 1, empty).
   aci.update(false, 0.4);
   EXPECT_DOUBLE_EQ(aci.current_miscoverage(), 0.0);
   EXPECT_TRUE(aci.quantile_interval(0.0, 1.0).unbounded());

@@ -12,7 +12,9 @@
 namespace libseq::uncertainty {
 namespace {
 
-double mean_of(const std::vector<double>& x) { return std::accumulate(x.begin(), x.end(), 0.0) / static_cast<double>(x.size()); }
+double mean_of(const std::vector<double>& x) {
+  return std::accumulate(x.begin(), x.end(), 0.0) / static_cast<double>(x.size());
+}
 
 double standard_error(const std::vector<double>& x) {
   const double m = mean_of(x);
@@ -193,8 +195,8 @@ TEST(Resample, OptionsAndSchemeNamesAreChecked) {
   } catch (const ConfigError& e) {
     EXPECT_NE(std::string(e.what()).find("resample.lookback_steps = 0"), std::string::npos) << e.what();
   }
-  for (auto scheme : {ResampleScheme::none, ResampleScheme::moving_block, ResampleScheme::stationary,
-                      ResampleScheme::sites}) {
+  for (auto scheme :
+       {ResampleScheme::none, ResampleScheme::moving_block, ResampleScheme::stationary, ResampleScheme::sites}) {
     EXPECT_EQ(parse_resample_scheme(to_string(scheme)), scheme);
   }
   try {

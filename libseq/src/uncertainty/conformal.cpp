@@ -47,8 +47,10 @@ double kth_smallest(std::vector<double> values, std::size_t k) {
 
 std::string to_string(ConformalScore score) {
   switch (score) {
-    case ConformalScore::absolute_residual: return "absolute_residual";
-    case ConformalScore::quantile_pair: return "quantile_pair";
+    case ConformalScore::absolute_residual:
+      return "absolute_residual";
+    case ConformalScore::quantile_pair:
+      return "quantile_pair";
   }
   return "unknown";
 }
@@ -109,8 +111,8 @@ Calibrator Calibrator::fit(const CalibrationSet& data, const ConformalOptions& o
   if (!pair) require(data.point.size(), "point", true);
   const bool has_interval = require(data.lower.size(), "lower", pair) & require(data.upper.size(), "upper", pair);
   if (data.lower.size() != data.upper.size()) {
-    throw DataError("conformal calibration: 'lower' has " + std::to_string(data.lower.size()) + " values but 'upper' has " +
-                    std::to_string(data.upper.size()) + "; expected the same count");
+    throw DataError("conformal calibration: 'lower' has " + std::to_string(data.lower.size()) +
+                    " values but 'upper' has " + std::to_string(data.upper.size()) + "; expected the same count");
   }
   const bool has_leads = require(data.lead.size(), "lead", false);
 
@@ -146,8 +148,8 @@ Calibrator Calibrator::fit(const CalibrationSet& data, const ConformalOptions& o
       const auto count = static_cast<double>(entry.count);
       if (has_interval) entry.coverage_before = static_cast<double>(raw_covered[slot]) / count;
       // y lies in the calibrated interval exactly when its score is <= Q (both score forms, Romano et al. 2019).
-      const auto inside = std::count_if(scores[slot].begin(), scores[slot].end(),
-                                        [&](double s) { return s <= entry.score_quantile; });
+      const auto inside =
+          std::count_if(scores[slot].begin(), scores[slot].end(), [&](double s) { return s <= entry.score_quantile; });
       entry.coverage_after = static_cast<double>(inside) / count;
     }
     state.leads.push_back(entry);
@@ -167,8 +169,8 @@ Calibrator Calibrator::from_state(CalibratorState state) {
     if (e.lead != i) throw DataError(where + " has lead " + std::to_string(e.lead) + ", expected " + std::to_string(i));
     if (e.rank != conformal_rank(e.count, state.options.miscoverage)) {
       throw DataError(where + " has rank " + std::to_string(e.rank) + ", expected ceil((n + 1)(1 - alpha)) = " +
-                      std::to_string(conformal_rank(e.count, state.options.miscoverage)) + " for n = " +
-                      std::to_string(e.count));
+                      std::to_string(conformal_rank(e.count, state.options.miscoverage)) +
+                      " for n = " + std::to_string(e.count));
     }
     if (std::isnan(e.score_quantile) || (e.rank > e.count) != (e.score_quantile == infinity)) {
       throw DataError(where + " has score quantile " + number(e.score_quantile) +
@@ -213,8 +215,8 @@ std::string Calibrator::brief_report() const {
                     number(state_.options.miscoverage) + (state_.options.per_lead ? ", per lead" : ", pooled") + ")\n";
   for (const auto& e : state_.leads) {
     char line[256];
-    std::snprintf(line, sizeof line, "  lead %zu: n %zu, rank %zu, Q %.6g, coverage before %.4f, after %.4f\n",
-                  e.lead, e.count, e.rank, e.score_quantile, e.coverage_before, e.coverage_after);
+    std::snprintf(line, sizeof line, "  lead %zu: n %zu, rank %zu, Q %.6g, coverage before %.4f, after %.4f\n", e.lead,
+                  e.count, e.rank, e.score_quantile, e.coverage_before, e.coverage_after);
     out += line;
   }
   return out;
@@ -254,7 +256,8 @@ double AdaptiveConformal::score_quantile() const {
   // Gibbs & Candès (2021), Sect. 2: Q of level 1 - α_t; α_t <= 0 gives the whole line, α_t >= 1 the empty set.
   if (alpha_ <= 0.0) return infinity;
   if (alpha_ >= 1.0) return -infinity;
-  const std::size_t k = std::max<std::size_t>(1, guarded_ceil(static_cast<double>(scores_.size() + 1) * (1.0 - alpha_)));
+  const std::size_t k =
+      std::max<std::size_t>(1, guarded_ceil(static_cast<double>(scores_.size() + 1) * (1.0 - alpha_)));
   return kth_smallest(std::vector<double>(scores_.begin(), scores_.end()), k);
 }
 

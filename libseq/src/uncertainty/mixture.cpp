@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <exception>
 #include <limits>
 #include <numbers>
@@ -109,9 +110,12 @@ MixtureSummary empty_summary(const MixtureOptions& options, std::size_t members)
 
 std::string to_string(MemberKind kind) {
   switch (kind) {
-    case MemberKind::gaussian: return "gaussian";
-    case MemberKind::quantiles: return "quantiles";
-    case MemberKind::points: return "points";
+    case MemberKind::gaussian:
+      return "gaussian";
+    case MemberKind::quantiles:
+      return "quantiles";
+    case MemberKind::points:
+      return "points";
   }
   return "unknown";
 }
@@ -125,8 +129,10 @@ MemberKind parse_member_kind(std::string_view text, std::string_view key) {
 
 std::string to_string(QuantileTail tail) {
   switch (tail) {
-    case QuantileTail::linear: return "linear";
-    case QuantileTail::point_mass: return "point_mass";
+    case QuantileTail::linear:
+      return "linear";
+    case QuantileTail::point_mass:
+      return "point_mass";
   }
   return "unknown";
 }
@@ -296,8 +302,8 @@ MixtureSummary mix_quantile_sets(std::span<const double> levels, std::span<const
     }
   }
   if (values.size() % levels.size() != 0) {
-    throw DataError("quantile-set mixture: " + std::to_string(values.size()) +
-                    " values is not a multiple of the " + std::to_string(levels.size()) + " levels");
+    throw DataError("quantile-set mixture: " + std::to_string(values.size()) + " values is not a multiple of the " +
+                    std::to_string(levels.size()) + " levels");
   }
   const std::size_t k = levels.size();
   const std::size_t members = values.size() / k;
@@ -382,7 +388,8 @@ MixtureSummary mix_points(std::span<const double> values, const MixtureOptions& 
   s.variance = squares / n;
   finish_summary(s);
   s.median = empirical_quantile(sorted, 0.5);
-  for (std::size_t i = 0; i < options.levels.size(); ++i) s.quantiles[i] = empirical_quantile(sorted, options.levels[i]);
+  for (std::size_t i = 0; i < options.levels.size(); ++i)
+    s.quantiles[i] = empirical_quantile(sorted, options.levels[i]);
   return s;
 }
 
@@ -471,7 +478,8 @@ MixtureTable mix(const MemberForecasts& forecasts, const MixtureOptions& options
       table.spread[i] = s.spread;
       table.median[i] = s.median;
       table.members_used[i] = s.members_used;
-      std::copy(s.quantiles.begin(), s.quantiles.end(), table.quantiles.begin() + static_cast<std::ptrdiff_t>(i * levels));
+      std::copy(s.quantiles.begin(), s.quantiles.end(),
+                table.quantiles.begin() + static_cast<std::ptrdiff_t>(i * levels));
       if (options.keep_member_values) {
         std::copy(s.member_values.begin(), s.member_values.end(),
                   table.member_values.begin() + static_cast<std::ptrdiff_t>(i * members));

@@ -10,17 +10,21 @@ namespace libseq::uncertainty {
 
 std::string to_string(ResampleScheme scheme) {
   switch (scheme) {
-    case ResampleScheme::none: return "none";
-    case ResampleScheme::moving_block: return "moving_block";
-    case ResampleScheme::stationary: return "stationary";
-    case ResampleScheme::sites: return "sites";
+    case ResampleScheme::none:
+      return "none";
+    case ResampleScheme::moving_block:
+      return "moving_block";
+    case ResampleScheme::stationary:
+      return "stationary";
+    case ResampleScheme::sites:
+      return "sites";
   }
   return "unknown";
 }
 
 ResampleScheme parse_resample_scheme(std::string_view text, std::string_view key) {
-  for (auto scheme : {ResampleScheme::none, ResampleScheme::moving_block, ResampleScheme::stationary,
-                      ResampleScheme::sites}) {
+  for (auto scheme :
+       {ResampleScheme::none, ResampleScheme::moving_block, ResampleScheme::stationary, ResampleScheme::sites}) {
     if (text == to_string(scheme)) return scheme;
   }
   throw ConfigError(std::string(key) + " = '" + std::string(text) +
@@ -65,8 +69,8 @@ Resample finish(std::size_t window_count, Resample out) {
 Resample moving_block_bootstrap(std::size_t window_count, std::size_t block_length, std::uint64_t seed) {
   if (window_count == 0) return Resample{};
   if (block_length == 0 || block_length > window_count) {
-    throw ConfigError("moving-block bootstrap: block_length = " + std::to_string(block_length) +
-                      ": expected 1.." + std::to_string(window_count) + " (the window count)");
+    throw ConfigError("moving-block bootstrap: block_length = " + std::to_string(block_length) + ": expected 1.." +
+                      std::to_string(window_count) + " (the window count)");
   }
   detail::SplitMix64 rng(seed);
   Resample out;
@@ -149,8 +153,8 @@ Resample resample_windows(std::span<const std::size_t> window_site, std::size_t 
       out.indices.insert(out.indices.end(), own.begin(), own.end());
       continue;
     }
-    const std::size_t b = options.block_length == 0 ? default_block_length(n, options.lookback_steps)
-                                                    : std::min(options.block_length, n);
+    const std::size_t b =
+        options.block_length == 0 ? default_block_length(n, options.lookback_steps) : std::min(options.block_length, n);
     const std::uint64_t site_seed = detail::mix_seed(seed, site);
     Resample local = options.scheme == ResampleScheme::moving_block
                          ? moving_block_bootstrap(n, b, site_seed)

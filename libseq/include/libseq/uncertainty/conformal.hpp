@@ -41,8 +41,9 @@ struct Interval {
   /// Whether lower <= y <= upper (false for NaN).
   bool contains(double y) const { return lower <= y && y <= upper; }
   /// Whether the interval is the whole real line.
-  bool unbounded() const { return lower == -std::numeric_limits<double>::infinity() &&
-                                  upper == std::numeric_limits<double>::infinity(); }
+  bool unbounded() const {
+    return lower == -std::numeric_limits<double>::infinity() && upper == std::numeric_limits<double>::infinity();
+  }
 };
 
 /// ceil((n + 1)(1 - miscoverage)): the rank of the calibration score used as Q (Lei et al. 2018, Sect. 2.2).

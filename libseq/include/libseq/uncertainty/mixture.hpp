@@ -115,8 +115,8 @@ double empirical_quantile(std::span<const double> sorted_values, double p);
 /// Members' forecasts for many cases, laid out flat and row-major (case, member[, level]).
 struct MemberForecasts {
   MemberKind kind = MemberKind::gaussian;
-  std::size_t case_count = 0;    ///< Number of (site, issue, lead) cases.
-  std::size_t member_count = 0;  ///< Members per case (for points: members × MC passes).
+  std::size_t case_count = 0;     ///< Number of (site, issue, lead) cases.
+  std::size_t member_count = 0;   ///< Members per case (for points: members × MC passes).
   std::vector<double> means;      ///< gaussian: case_count × member_count.
   std::vector<double> variances;  ///< gaussian: case_count × member_count, >= 0.
   std::vector<double> levels;     ///< quantiles: the member quantile levels, strictly increasing in (0, 1).
@@ -129,13 +129,13 @@ struct MemberForecasts {
 /// Summaries of many cases, flat arrays.
 struct MixtureTable {
   std::size_t case_count = 0;
-  std::vector<double> levels;         ///< The requested levels (copy of MixtureOptions::levels).
-  std::vector<double> mean;           ///< case_count.
-  std::vector<double> variance;       ///< case_count.
-  std::vector<double> spread;         ///< case_count.
-  std::vector<double> median;         ///< case_count.
-  std::vector<double> quantiles;      ///< case_count × levels.size(), row-major.
-  std::vector<double> member_values;  ///< case_count × member_count when keep_member_values, else empty.
+  std::vector<double> levels;             ///< The requested levels (copy of MixtureOptions::levels).
+  std::vector<double> mean;               ///< case_count.
+  std::vector<double> variance;           ///< case_count.
+  std::vector<double> spread;             ///< case_count.
+  std::vector<double> median;             ///< case_count.
+  std::vector<double> quantiles;          ///< case_count × levels.size(), row-major.
+  std::vector<double> member_values;      ///< case_count × member_count when keep_member_values, else empty.
   std::vector<std::size_t> members_used;  ///< case_count.
 };
 
