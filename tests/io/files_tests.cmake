@@ -10,3 +10,4 @@ endfunction()
 
 files_add_test(io_hdf5_reader_test SOURCES hdf5_reader_test.cpp MODULES core data io)
 files_add_test(io_csv_reader_test SOURCES csv_reader_test.cpp MODULES core data io)
+files_add_test(io_reader_test SOURCES reader_test.cpp MODULES core data io)

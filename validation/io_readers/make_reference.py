@@ -91,7 +91,31 @@ def write_netcdf_signatures():
             t[:] = [0.0, 1.0]
 
 
+def write_cf_timeseries():
+    # A minimal CF 1.8 discrete sampling geometry file (featureType timeSeries, orthogonal multidimensional form,
+    # CF Conventions 1.8 Appendix H.2.1), for the read_panel dispatch test.
+    with netCDF4.Dataset(HERE / "cf_timeseries.nc", "w", format="NETCDF4") as ds:
+        ds.Conventions = "CF-1.8"
+        ds.featureType = "timeSeries"
+        ds.createDimension("station", 2)
+        ds.createDimension("time", 3)
+        sid = ds.createVariable("station_id", str, ("station",))
+        sid.cf_role = "timeseries_id"
+        sid[0] = "N-1"
+        sid[1] = "N-2"
+        t = ds.createVariable("time", "f8", ("time",))
+        t.units = "days since 2000-01-01 00:00:00"
+        t.calendar = "standard"
+        t.standard_name = "time"
+        t[:] = [0.0, 1.0, 2.0]
+        q = ds.createVariable("discharge", "f4", ("station", "time"))
+        q.units = "m3 s-1"
+        q.standard_name = "water_volume_transport_in_river_channel"
+        q[:] = np.array([[1.0, 2.0, 3.0], [4.0, 5.0, 6.0]], dtype=np.float32)
+
+
 if __name__ == "__main__":
     write_h5py_panel()
     write_offsets_csv()
     write_netcdf_signatures()
+    write_cf_timeseries()
