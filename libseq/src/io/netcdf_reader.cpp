@@ -48,10 +48,10 @@ class NcFile {
     }
     const int status = nc_open(path_.c_str(), NC_NOWRITE, &id_);
     if (status == NC_ENOTNC) {
-      throw FormatError("NetCDF file '" + path_ + "': not a NetCDF file (NetCDF: " + nc_strerror(status) + ")");
+      throw FormatError("NetCDF file '" + path_ + "': not a NetCDF file (" + nc_strerror(status) + ")");
     }
     if (status != NC_NOERR) {
-      throw IoError("NetCDF file '" + path_ + "': cannot be opened (NetCDF: " + nc_strerror(status) +
+      throw IoError("NetCDF file '" + path_ + "': cannot be opened (" + nc_strerror(status) +
                     "); the file may be truncated or damaged");
     }
   }
@@ -70,7 +70,7 @@ class NcFile {
 
   void check(int status, const std::string& context) const {
     if (status != NC_NOERR) {
-      throw IoError(context + ": NetCDF error: " + nc_strerror(status) + " (the file may be truncated or damaged)");
+      throw IoError(context + ": " + std::string(nc_strerror(status)) + " (the file may be truncated or damaged)");
     }
   }
 
