@@ -41,7 +41,7 @@ std::string site_id(std::size_t s) {
   return buffer;
 }
 
-// Writes the benchmark file once per process into a temporary directory (removed at exit).
+// Writes the benchmark file once per process into a temporary directory (main removes it at the end).
 const std::filesystem::path& bench_file() {
   static const std::filesystem::path path = [] {
     const auto dir = std::filesystem::temp_directory_path() / ("runnel-netcdf-bench-" + std::to_string(getpid()));
@@ -87,7 +87,6 @@ const std::filesystem::path& bench_file() {
       }
     }
     ok(nc_close(nc));
-    std::atexit([] { std::filesystem::remove_all(bench_file().parent_path()); });
     return file;
   }();
   return path;
@@ -206,5 +205,6 @@ int main(int argc, char** argv) {
   benchmark::Initialize(&argc, argv);
   benchmark::RunSpecifiedBenchmarks();
   benchmark::Shutdown();
+  std::filesystem::remove_all(bench_file().parent_path());
   return 0;
 }
