@@ -18,5 +18,6 @@ struct Command {
 };
 
 Command add_inspect_command(CLI::App& root);
+Command add_init_command(CLI::App& root);
 
 }  // namespace runnel_app
