@@ -8,6 +8,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdio>
 
 #include "libseq/error.hpp"
 #include "libseq/train/early_stopping.hpp"
@@ -32,11 +33,14 @@ template <typename Scalar>
 void expect_close(std::span<const Scalar> actual, const std::vector<double>& expected, double tolerance,
                   const std::string& what) {
   ASSERT_EQ(actual.size(), expected.size()) << what;
+  double worst = 0.0;
   for (std::size_t i = 0; i < expected.size(); ++i) {
     const double scale = std::max(std::abs(expected[i]), 1e-3);
+    worst = std::max(worst, std::abs(static_cast<double>(actual[i]) - expected[i]) / scale);
     EXPECT_LE(std::abs(static_cast<double>(actual[i]) - expected[i]), tolerance * scale)
         << what << " entry " << i << ": " << static_cast<double>(actual[i]) << " vs torch " << expected[i];
   }
+  std::printf("%-40s worst relative deviation from torch %.3e\n", what.c_str(), worst);
 }
 
 template <typename Scalar>
