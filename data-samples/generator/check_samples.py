@@ -6,8 +6,8 @@ python3-h5py (and python3-matplotlib for the optional plot), and prints what it 
 
 It decodes the CF files with xarray (CF time decoding, int16 unpacking, _FillValue masking), reads the HDF5 panel
 with h5py and the CSV with the standard library, then prints per-site summaries and monthly means and checks that
-the three copies agree: the NetCDF and HDF5 catchment values must match exactly as float32 (the generator stores the
-unpacked discharge in both), the CSV must match feeders.nc to its printed precision. Exit status 1 when a check
+the three copies agree: the NetCDF and HDF5 catchment values must match (exactly, or within 1e-4 for the discharge
+that xarray unpacks in float32 while the generator stores the double-precision decode), the CSV must match feeders.nc to its printed precision. Exit status 1 when a check
 fails. It is a developer check of the committed samples, not part of the test suite (CI runs no Python).
 """
 import argparse
@@ -70,7 +70,8 @@ def main():
             b = cat[v].values.astype(np.float32)
             same = np.array_equal(np.isnan(a), np.isnan(b)) and np.array_equal(a[~np.isnan(a)], b[~np.isnan(b)])
             worst = np.nanmax(np.abs(a - b))
-            # xarray unpacks int16 with float32 scale/offset in float64; allow one float32 ulp at ~1000 m3/s.
+            # The generator stores the double-precision decode rounded to float32; xarray 2023.01 unpacks this int16
+            # variable in float32, which may differ by one float32 ulp (3e-5 at ~300 m3/s).
             check(same or worst < 1e-4, f"catchments.h5: {v} equals NetCDF (max abs diff {worst:.2e})")
             check(h5["variables/" + v].attrs["units"] == cat[v].attrs["units"], f"catchments.h5: {v} units")
 

@@ -83,7 +83,9 @@ float Int16Packing::unpack(std::int16_t packed) const {
   if (packed == fill_value) {
     return std::numeric_limits<float>::quiet_NaN();
   }
-  return static_cast<float>(packed) * scale_factor + add_offset;
+  // In double, then rounded once: the float nearest the exact decoded value, which is what a reader that unpacks in
+  // double (as libseq's NetCDF reader does) stores as float32.
+  return static_cast<float>(static_cast<double>(packed) * scale_factor + static_cast<double>(add_offset));
 }
 
 Int16Packing choose_int16_packing(const Panel& panel, std::size_t variable) {

@@ -24,7 +24,7 @@ struct Int16Packing {
   static constexpr std::int16_t fill_value = -32767;
   /// Packed count of a value (rounded to nearest, clamped to the valid range); NaN gives fill_value.
   std::int16_t pack(float value) const;
-  /// Unpacked value of a count, computed in float as a float32 reader would; fill_value gives NaN.
+  /// Unpacked value of a count, computed in double and rounded to float; fill_value gives NaN.
   float unpack(std::int16_t packed) const;
 };
 
