@@ -301,6 +301,29 @@ void Network<Scalar>::clear_initial_state() {
 }
 
 template <typename Scalar>
+std::size_t Network<Scalar>::workspace_bytes() const {
+  const auto& w = *work_;
+  std::size_t count = 0;
+  const auto add = [&](const typename Workspace::Mat& m) { count += static_cast<std::size_t>(m.size()); };
+  for (const auto& layer : w.layers) {
+    add(layer.pre);
+    add(layer.hidden);
+    add(layer.cell);
+    add(layer.recurrent_n);
+    add(layer.hidden_dropped);
+    add(layer.input);
+    add(layer.recurrent_mask);
+    add(layer.output_mask);
+  }
+  for (const auto* m : {&w.input_mask, &w.static_projection, &w.recurrent, &w.d_pre, &w.d_recurrent, &w.d_output,
+                        &w.d_input, &w.dh, &w.dc, &w.carry_h, &w.carry_c, &w.head_input, &w.d_head,
+                        &w.static_gate_sums}) {
+    add(*m);
+  }
+  return count * sizeof(Scalar);
+}
+
+template <typename Scalar>
 std::span<const Scalar> Network<Scalar>::top_states() const {
   const auto& layer = work_->layers.back();
   const std::size_t b = work_->batch, h = options_.hidden_size;

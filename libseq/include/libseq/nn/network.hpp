@@ -153,6 +153,10 @@ class Network {
   /// loss_and_gradient call; steps × layers (time-major). For gradient-through-time diagnostics.
   std::span<const Scalar> state_gradient_norms() const { return state_gradient_norms_; }
 
+  /// Bytes currently held by the forward/backward workspaces (per-step activations and gradients); grows with
+  /// steps × batch × gates × hidden_size and is reused by later calls of the same shape.
+  std::size_t workspace_bytes() const;
+
   /// Size of a recurrent state for `batch` sequences: layers × (h, and c for LSTM) × batch × H.
   std::size_t state_size(std::size_t batch) const;
   /// Initial state used by every later forward call until clear_initial_state() (for truncated BPTT: pass the
