@@ -149,7 +149,7 @@ TEST_P(EveryCell, InitialisationFollowsTheStatedSchemes) {
 INSTANTIATE_TEST_SUITE_P(Cells, EveryCell, ::testing::Values(CellType::elman, CellType::lstm, CellType::gru),
                          [](const auto& info) { return libseq::nn::to_string(info.param); });
 
-// Variational dropout (Gal & Ghahramani 2016, sec. 4): one mask per sequence and unit, the same at every step, with
+// Variational dropout (Gal & Ghahramani 2016): one mask per sequence and unit, the same at every step, with
 // inverted scaling 1/(1 − p). With an identity Elman cell, W = I, U = 0 and constant inputs 1, h_t equals the input
 // mask itself, so each unit must be 0 or 1/(1 − p) and equal across steps.
 TEST(Dropout, InputMaskIsPerSequenceConstantOverTimeAndScaled) {

@@ -98,7 +98,7 @@ Scalar evaluate(const Loss& loss, std::span<const Scalar> outputs, std::span<con
         break;
       }
       case LossType::gaussian_nll: {
-        // Negative log density of N(μ, σ²) with s = log σ² (Nix & Weigend 1994, eq. 4 up to the constant):
+        // Negative log density of N(μ, σ²) with s = log σ² (Nix & Weigend 1994):
         // 0.5·(s + (y − μ)²·e^(−s)) + 0.5·log 2π. The log-variance parameterisation keeps σ² positive without a
         // constraint; no clamping is applied, so a trainer should start from moderate s.
         const double mu = out[0], s = out[1];

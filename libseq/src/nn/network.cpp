@@ -232,16 +232,16 @@ void Network<Scalar>::initialize(std::uint64_t seed) {
   std::mt19937_64 rng(seed);
   const std::size_t g = options_.gates(), h = options_.hidden_size;
   std::fill(parameters_.begin(), parameters_.end(), Scalar(0));
-  // Glorot & Bengio 2010, eq. 16: U(−a, a), a = sqrt(6 / (fan_in + fan_out)). Applied per gate block, so fan_out = H
-  // (each gate is its own linear map).
+  // Glorot & Bengio 2010, eq. 16 (equation number from memory): U(−a, a), a = sqrt(6 / (fan_in + fan_out)).
+  // Applied per gate block (each gate is its own linear map), so fan_out = H.
   const auto glorot = [&](std::size_t offset, std::size_t rows, std::size_t cols, std::size_t fan_in) {
     const double a = std::sqrt(6.0 / static_cast<double>(fan_in + rows));
     for (std::size_t i = 0; i < rows * cols; ++i) {
       parameters_[offset + i] = static_cast<Scalar>((2.0 * uniform01(rng) - 1.0) * a);
     }
   };
-  // Orthogonal H × H blocks (Saxe et al. 2014, sec. 3): Q of the QR decomposition of a standard Gaussian matrix,
-  // with columns multiplied by sign(diag R) so that Q is Haar-distributed (Mezzadri 2007, sec. 5).
+  // Orthogonal H × H blocks (Saxe et al. 2014): Q of the QR decomposition of a standard Gaussian matrix,
+  // with columns multiplied by sign(diag R) so that Q is Haar-distributed (Mezzadri 2007).
   const auto orthogonal = [&](std::size_t offset) {
     Eigen::MatrixXd gauss(h, h);
     for (Eigen::Index i = 0; i < gauss.rows(); ++i)
@@ -263,7 +263,7 @@ void Network<Scalar>::initialize(std::uint64_t seed) {
       glorot(o.input_weights + gate * h * in, h, in, l == 0 ? fan_in0 : h);
     }
     for (std::size_t gate = 0; gate < g; ++gate) orthogonal(o.recurrent_weights + gate * h * h);
-    // Forget-gate bias 1 (Jozefowicz et al. 2015, sec. 2.2), on the input bias; gate order i, f, g, o.
+    // Forget-gate bias 1 (Jozefowicz et al. 2015), on the input bias; gate order i, f, g, o.
     if (options_.cell == CellType::lstm) {
       for (std::size_t j = 0; j < h; ++j) parameters_[o.input_bias + h + j] = Scalar(1);
     }
@@ -384,7 +384,7 @@ void Network<Scalar>::forward(const SequenceBatch<Scalar>& batch, DropoutMode mo
   w.steps = steps;
   w.batch = nb;
 
-  // Variational dropout masks (Gal & Ghahramani 2016, sec. 4): one Bernoulli mask per sequence and unit, reused at
+  // Variational dropout masks (Gal & Ghahramani 2016): one Bernoulli mask per sequence and unit, reused at
   // every step; inverted scaling by 1/(1−p) so that no rescaling is needed without dropout.
   const bool sample = mode == DropoutMode::sample;
   const auto draw = [&](Mat& mask, std::size_t cols, double p) {
