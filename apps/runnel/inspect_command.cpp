@@ -14,8 +14,9 @@ Command add_inspect_command(CLI::App& root) {
     bool json = false;
   };
   auto args = std::make_shared<Arguments>();
-  auto* app = root.add_subcommand("inspect", "Summarise gauge, climate or load files: format, sites, variables, "
-                                             "time axis and missing values");
+  auto* app = root.add_subcommand("inspect",
+                                  "Summarise gauge, climate or load files: format, sites, variables, "
+                                  "time axis and missing values");
   app->add_option("files", args->files, "Input files (CF NetCDF, runnel HDF5 or CSV; told apart by content)")
       ->required();
   app->add_flag("--json", args->json, "Print the report as JSON instead of text tables");

@@ -74,10 +74,10 @@ TEST(CliInspect, JsonReportHasTheExpectedKeysAndVariableFilterApplies) {
   ASSERT_FALSE(r.out.empty());
   EXPECT_EQ(r.out.front(), '{');
   EXPECT_EQ(r.out[r.out.find_last_not_of('\n')], '}');
-  for (const char* key : {"\"files\": [", "\"path\": ", "\"ok\": true", "\"format\": \"csv\"", "\"time\": {",
-                          "\"step_seconds\": 86400", "\"variables\": [{\"name\": \"q\", \"units\": \"m3 s-1\"",
-                          "\"missing_fraction\": {\"q\": 0.25}", "\"file_count\": 1", "\"failed_count\": 0",
-                          "\"caution\": "}) {
+  for (const char* key :
+       {"\"files\": [", "\"path\": ", "\"ok\": true", "\"format\": \"csv\"", "\"time\": {", "\"step_seconds\": 86400",
+        "\"variables\": [{\"name\": \"q\", \"units\": \"m3 s-1\"", "\"missing_fraction\": {\"q\": 0.25}",
+        "\"file_count\": 1", "\"failed_count\": 0", "\"caution\": "}) {
     EXPECT_TRUE(contains(r.out, key)) << key << "\n" << r.out;
   }
   EXPECT_FALSE(contains(r.out, "\"pr\"")) << r.out;

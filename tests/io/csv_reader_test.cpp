@@ -142,7 +142,7 @@ TEST(CsvReader, ReadsLongFormWithSitesOnDifferentSpansOfOneGrid) {
   const std::vector<float> a_q = panel.series(0, 0);
   EXPECT_EQ(a_q[0], 1.0f);
   EXPECT_EQ(a_q[2], 3.0f);
-  EXPECT_TRUE(std::isnan(a_q[3]));  // A has no 18:00 row
+  EXPECT_TRUE(std::isnan(a_q[3]));             // A has no 18:00 row
   EXPECT_TRUE(std::isnan(panel.at(1, 0, 0)));  // B starts at 06:00
   EXPECT_TRUE(std::isnan(panel.at(1, 1, 1)));  // empty cell
   EXPECT_EQ(panel.at(1, 3, 1), 22.0f);
@@ -214,12 +214,12 @@ TEST(CsvReader, DuplicateBackwardAndIrregularTimesAreDataErrorsNamingLineAndTime
 }
 
 TEST(CsvReader, LongFormSitesOnDifferentStepsOrGridsAreDataErrors) {
-  const auto steps = write_file("steps", "long.csv",
-                                "site,time,q\nA,2020-01-01,1\nA,2020-01-02,2\nB,2020-01-01,1\nB,2020-01-03,2\n");
+  const auto steps =
+      write_file("steps", "long.csv", "site,time,q\nA,2020-01-01,1\nA,2020-01-02,2\nB,2020-01-01,1\nB,2020-01-03,2\n");
   std::string message = message_of<DataError>([&] { read_csv(steps); });
   EXPECT_TRUE(contains(message, "line 5: site 'B' has a step of 172800 s")) << message;
-  const auto grid = write_file("grid", "long.csv",
-                               "site,time,q\nA,2020-01-01T00:00,1\nA,2020-01-02T00:00,2\nB,2020-01-01T12:00,1\n");
+  const auto grid =
+      write_file("grid", "long.csv", "site,time,q\nA,2020-01-01T00:00,1\nA,2020-01-02T00:00,2\nB,2020-01-01T12:00,1\n");
   message = message_of<DataError>([&] { read_csv(grid); });
   EXPECT_TRUE(contains(message, "line 4: site 'B' starts at 2020-01-01T12:00:00Z")) << message;
 }

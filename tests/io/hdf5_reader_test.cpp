@@ -152,8 +152,7 @@ TEST(Hdf5Reader, UnknownSiteIsRefusedListingThePresentOnes) {
   ReadOptions options;
   options.sites = {"Z"};
   const std::string message = message_of<DataError>([&] { read_hdf5(path, options); });
-  EXPECT_TRUE(contains(message, path.string()) && contains(message, "'Z'") && contains(message, "A, B, C"))
-      << message;
+  EXPECT_TRUE(contains(message, path.string()) && contains(message, "'Z'") && contains(message, "A, B, C")) << message;
 }
 
 TEST(Hdf5Reader, TimeOnlyDatasetWhereSiteByTimeExpectedIsAFormatError) {
@@ -207,6 +206,16 @@ TEST(Hdf5Reader, InfinityIsADataErrorNamingVariableSiteAndTime) {
   EXPECT_TRUE(contains(message, path.string())) << message;
   EXPECT_TRUE(contains(message, "variable 'pr', site 'B', time 2001-01-03T00:00:00Z")) << message;
   EXPECT_TRUE(contains(message, "+Inf")) << message;
+}
+
+// A float64 value beyond the float32 range becomes infinite in the panel's storage and is refused like ±Inf,
+// rather than being clipped silently.
+TEST(Hdf5Reader, Float64BeyondTheFloatRangeIsRefusedLikeInfinity) {
+  PanelFileFaults faults;
+  faults.huge_in_q = true;
+  const auto path = panel_file("huge", faults);
+  const std::string message = message_of<DataError>([&] { read_hdf5(path); });
+  EXPECT_TRUE(contains(message, "variable 'q', site 'C', time 2001-01-02T00:00:00Z")) << message;
 }
 
 TEST(Hdf5Reader, FileWithoutLayoutAttributeIsAFormatError) {

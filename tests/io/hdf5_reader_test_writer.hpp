@@ -32,8 +32,8 @@ class Hdf5Builder {
     const hid_t type = vlen_string_type();
     const hid_t space = H5Screate(H5S_SCALAR);
     const char* text = value.c_str();
-    const hid_t attribute = H5Acreate_by_name(file_, object.c_str(), name, type, space, H5P_DEFAULT, H5P_DEFAULT,
-                                              H5P_DEFAULT);
+    const hid_t attribute =
+        H5Acreate_by_name(file_, object.c_str(), name, type, space, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
     H5Awrite(attribute, type, &text);
     H5Aclose(attribute);
     H5Sclose(space);
@@ -41,8 +41,8 @@ class Hdf5Builder {
   }
   void number_attribute(const std::string& object, const char* name, double value, hid_t file_type) {
     const hid_t space = H5Screate(H5S_SCALAR);
-    const hid_t attribute = H5Acreate_by_name(file_, object.c_str(), name, file_type, space, H5P_DEFAULT,
-                                              H5P_DEFAULT, H5P_DEFAULT);
+    const hid_t attribute =
+        H5Acreate_by_name(file_, object.c_str(), name, file_type, space, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
     H5Awrite(attribute, H5T_NATIVE_DOUBLE, &value);
     H5Aclose(attribute);
     H5Sclose(space);
@@ -88,7 +88,9 @@ class Hdf5Builder {
 };
 
 /// Values of the standard test panel: discharge q(s, t) = 10 s + t + 0.5 and precipitation pr(s, t) = s - 0.25 t.
-inline double test_q(std::size_t s, std::size_t t) { return 10.0 * static_cast<double>(s) + static_cast<double>(t) + 0.5; }
+inline double test_q(std::size_t s, std::size_t t) {
+  return 10.0 * static_cast<double>(s) + static_cast<double>(t) + 0.5;
+}
 inline double test_pr(std::size_t s, std::size_t t) { return static_cast<double>(s) - 0.25 * static_cast<double>(t); }
 
 /// What to break in the standard test panel.
@@ -99,6 +101,7 @@ struct PanelFileFaults {
   std::string time_units = "seconds since 1970-01-01T00:00:00Z";
   std::size_t all_missing_site = 99;  ///< index of a site whose values are all NaN
   bool inf_in_pr = false;             ///< +Inf at site 1, time 2 of pr
+  bool huge_in_q = false;             ///< 1e300 (beyond float32) at site 2, time 1 of the float64 q
 };
 
 /// The standard test panel: sites A, B, C; 5 daily steps from 2001-01-01; q float64 with _FillValue -1 at
@@ -132,6 +135,7 @@ inline void write_test_panel(const std::filesystem::path& path, const PanelFileF
   }
   q[3] = -1.0;  // the fill value
   if (faults.inf_in_pr) pr[1 * steps + 2] = std::numeric_limits<double>::infinity();
+  if (faults.huge_in_q) q[2 * steps + 1] = 1e300;
   if (faults.q_one_dimensional) {
     b.matrix_dataset("/variables/q", 0, steps, std::vector<double>(q.begin(), q.begin() + static_cast<long>(steps)),
                      true);

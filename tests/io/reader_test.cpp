@@ -54,7 +54,8 @@ TEST(Reader, DetectionIgnoresExtensionsAndSkipsCommentLines) {
   const auto dir = test::scratch_dir("reader/extensions");
   test::write_test_panel(dir / "panel.csv");
   EXPECT_EQ(detect_format(dir / "panel.csv"), FileFormat::hdf5);
-  const auto text = write_bytes("extensions_text", "data.nc", "\xEF\xBB\xBF# comment\n\n  # another\n\"site\",\"time\",q\n");
+  const auto text =
+      write_bytes("extensions_text", "data.nc", "\xEF\xBB\xBF# comment\n\n  # another\n\"site\",\"time\",q\n");
   EXPECT_EQ(detect_format(text), FileFormat::csv);
   const auto plain_hdf5 = dir / "plain.h5";
   {

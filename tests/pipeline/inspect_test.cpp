@@ -42,7 +42,9 @@ class JsonParser {
     throw std::runtime_error("invalid JSON at byte " + std::to_string(pos_) + ": " + why);
   }
   void skip_space() {
-    while (pos_ < text_.size() && (text_[pos_] == ' ' || text_[pos_] == '\n' || text_[pos_] == '\r' || text_[pos_] == '\t')) ++pos_;
+    while (pos_ < text_.size() &&
+           (text_[pos_] == ' ' || text_[pos_] == '\n' || text_[pos_] == '\r' || text_[pos_] == '\t'))
+      ++pos_;
   }
   void expect(char c) {
     skip_space();
@@ -151,14 +153,30 @@ class JsonParser {
       }
       const char e = text_[pos_++];
       switch (e) {
-        case '"': out += '"'; break;
-        case '\\': out += '\\'; break;
-        case '/': out += '/'; break;
-        case 'b': out += '\b'; break;
-        case 'f': out += '\f'; break;
-        case 'n': out += '\n'; break;
-        case 'r': out += '\r'; break;
-        case 't': out += '\t'; break;
+        case '"':
+          out += '"';
+          break;
+        case '\\':
+          out += '\\';
+          break;
+        case '/':
+          out += '/';
+          break;
+        case 'b':
+          out += '\b';
+          break;
+        case 'f':
+          out += '\f';
+          break;
+        case 'n':
+          out += '\n';
+          break;
+        case 'r':
+          out += '\r';
+          break;
+        case 't':
+          out += '\t';
+          break;
         case 'u': {
           const unsigned code = static_cast<unsigned>(std::stoul(text_.substr(pos_, 4), nullptr, 16));
           pos_ += 4;
@@ -166,7 +184,8 @@ class JsonParser {
           out += static_cast<char>(code);
           break;
         }
-        default: fail("bad escape");
+        default:
+          fail("bad escape");
       }
     }
   }
@@ -253,7 +272,8 @@ TEST(Inspect, TextReportShowsTablesErrorsAndWarnings) {
   EXPECT_TRUE(contains(text, "    pr    -       -\n")) << text;
   // The tab in the site name is shown as a space so that the columns stay aligned; é counts as one column.
   EXPECT_TRUE(contains(text, "    id  name                             latitude  longitude      q    pr\n")) << text;
-  EXPECT_TRUE(contains(text, "    S1  Quote \" back\\slash \xC3\xA9t\xC3\xA9 tab here   47.5000          -  12.5%  0.0%\n"))
+  EXPECT_TRUE(
+      contains(text, "    S1  Quote \" back\\slash \xC3\xA9t\xC3\xA9 tab here   47.5000          -  12.5%  0.0%\n"))
       << text;
   EXPECT_TRUE(contains(text, "  error (io): " + in.missing.string() + ": file not found\n")) << text;
   EXPECT_TRUE(contains(text, "site 'B' skipped")) << text;

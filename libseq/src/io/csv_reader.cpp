@@ -76,8 +76,7 @@ float parse_value(std::string_view text, std::string_view source, std::size_t li
   if (key.empty() || key == "na" || key == "nan") return data::missing_value;
   auto where = [&] { return at_line(source, line) + ", column '" + std::string(column) + "'"; };
   std::string_view digits = text;
-  if (key == "inf" || key == "+inf" || key == "-inf" || key == "infinity" || key == "+infinity" ||
-      key == "-infinity") {
+  if (key == "inf" || key == "+inf" || key == "-inf" || key == "infinity" || key == "+infinity" || key == "-infinity") {
     throw DataError(where() + ": infinite value '" + std::string(text) +
                     "' refused (write a missing value as an empty cell, NA or NaN)");
   }
@@ -94,8 +93,7 @@ float parse_value(std::string_view text, std::string_view source, std::size_t li
   return static_cast<float>(value);
 }
 
-double parse_metadata_number(std::string_view text, std::string_view source, std::size_t line,
-                             std::string_view key) {
+double parse_metadata_number(std::string_view text, std::string_view source, std::size_t line, std::string_view key) {
   const float value = parse_value(trim(text), source, line, "# " + std::string(key));
   return std::isnan(value) ? std::numeric_limits<double>::quiet_NaN() : static_cast<double>(value);
 }
@@ -108,9 +106,9 @@ struct Row {
 
 // Metadata from `# key: value` and `# key name: value` comment lines.
 struct Comments {
-  std::map<std::string, std::string> plain;                                    // key → value
-  std::map<std::string, std::map<std::string, std::string>> named;             // key → name → value
-  std::map<std::string, std::size_t> lines;                                    // "key name" → line number
+  std::map<std::string, std::string> plain;                         // key → value
+  std::map<std::string, std::map<std::string, std::string>> named;  // key → name → value
+  std::map<std::string, std::size_t> lines;                         // "key name" → line number
 };
 
 void parse_comment(std::string_view text, std::size_t line, Comments& comments) {
@@ -131,8 +129,7 @@ void parse_comment(std::string_view text, std::size_t line, Comments& comments) 
   }
 }
 
-void apply_site_metadata(data::SiteInfo& site, const Comments& comments, std::string_view source,
-                         bool one_site_form) {
+void apply_site_metadata(data::SiteInfo& site, const Comments& comments, std::string_view source, bool one_site_form) {
   auto lookup = [&](const std::string& key) -> std::optional<std::pair<std::string, std::size_t>> {
     if (one_site_form) {
       if (auto it = comments.plain.find(key); it != comments.plain.end()) {
@@ -264,8 +261,8 @@ ReadResult read_csv(const std::filesystem::path& path, const ReadOptions& option
     site.id = id != comments.plain.end() && !id->second.empty() ? id->second : path.stem().string();
     apply_site_metadata(site, comments, source, true);
     detail::select_sites({site.id}, options.sites, source);  // throws when another site was asked for
-    if (rows.empty()) throw DataError(source + ": no data rows after the header (line " +
-                                      std::to_string(header_line) + ")");
+    if (rows.empty())
+      throw DataError(source + ": no data rows after the header (line " + std::to_string(header_line) + ")");
     std::vector<data::UtcSeconds> times;
     for (const auto& row : rows) times.push_back(row.time);
     const auto axis =
@@ -275,8 +272,8 @@ ReadResult read_csv(const std::filesystem::path& path, const ReadOptions& option
       for (std::size_t j = 0; j < chosen.size(); ++j) result.panel.at(0, t, j) = rows[t].values[j];
     }
   } else {
-    if (site_order.empty()) throw DataError(source + ": no data rows after the header (line " +
-                                            std::to_string(header_line) + ")");
+    if (site_order.empty())
+      throw DataError(source + ": no data rows after the header (line " + std::to_string(header_line) + ")");
     const auto chosen_sites = detail::select_sites(site_order, options.sites, source);
     // Every site is checked on its own (strictly increasing, one step); then all must share that step and lie
     // on one grid, and the panel spans the earliest to the latest time, NaN where a site has no row.
@@ -312,10 +309,9 @@ ReadResult read_csv(const std::filesystem::path& path, const ReadOptions& option
     for (std::size_t k = 0; k < chosen_sites.size(); ++k) {
       if ((site_axes[k].start() - start) % step != 0) {
         const auto& site_rows = rows_by_site[site_order[chosen_sites[k]]];
-        throw DataError(at_line(source, site_rows[0].line) + ": site '" + site_order[chosen_sites[k]] +
-                        "' starts at " + data::format_iso8601(site_axes[k].start()) + ", which is not on the " +
-                        std::to_string(step) + " s grid starting at " + data::format_iso8601(start) +
-                        " (irregular step)");
+        throw DataError(at_line(source, site_rows[0].line) + ": site '" + site_order[chosen_sites[k]] + "' starts at " +
+                        data::format_iso8601(site_axes[k].start()) + ", which is not on the " + std::to_string(step) +
+                        " s grid starting at " + data::format_iso8601(start) + " (irregular step)");
       }
     }
     const data::TimeAxis axis(start, step, static_cast<std::size_t>((end - start) / step + 1));

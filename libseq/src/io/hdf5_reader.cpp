@@ -68,7 +68,8 @@ struct File {
   Handle file;
 
   [[noreturn]] void format_error(const std::string& object, const std::string& why) const {
-    throw FormatError(source + ": " + object + ": " + why + " (runnel panel layout, version 1; see "
+    throw FormatError(source + ": " + object + ": " + why +
+                      " (runnel panel layout, version 1; see "
                       "docs/input-formats.md)");
   }
   [[noreturn]] void io_error(const std::string& object, const std::string& what) const {
@@ -184,8 +185,8 @@ std::vector<double> read_double_dataset(const File& f, const std::string& object
   Handle dataset = f.open_dataset(object);
   const auto dims = f.dimensions(dataset.get(), object);
   if (dims.size() != 1 || dims[0] != expected) {
-    f.format_error(object, "has " + describe_dims(dims) + ", expected 1 dimension [site=" +
-                               std::to_string(expected) + "]");
+    f.format_error(object,
+                   "has " + describe_dims(dims) + ", expected 1 dimension [site=" + std::to_string(expected) + "]");
   }
   Handle type(H5Dget_type(dataset.get()), H5Tclose);
   const H5T_class_t type_class = H5Tget_class(type.get());
@@ -217,8 +218,7 @@ std::optional<std::string> string_attribute(const File& f, hid_t object, const s
   return strings.at(0);
 }
 
-std::optional<double> number_attribute(const File& f, hid_t object, const std::string& object_name,
-                                       const char* name) {
+std::optional<double> number_attribute(const File& f, hid_t object, const std::string& object_name, const char* name) {
   if (H5Aexists(object, name) <= 0) return std::nullopt;
   Handle attribute(H5Aopen(object, name, H5P_DEFAULT), H5Aclose);
   if (!attribute.valid()) f.io_error(object_name + " attribute " + name, "opening");
@@ -229,7 +229,8 @@ std::optional<double> number_attribute(const File& f, hid_t object, const std::s
     f.format_error(object_name, std::string("attribute '") + name + "' must be one number");
   }
   double value = 0;
-  if (H5Aread(attribute.get(), H5T_NATIVE_DOUBLE, &value) < 0) f.io_error(object_name + " attribute " + name, "reading");
+  if (H5Aread(attribute.get(), H5T_NATIVE_DOUBLE, &value) < 0)
+    f.io_error(object_name + " attribute " + name, "reading");
   return value;
 }
 
@@ -257,8 +258,9 @@ void check_time_units(const File& f, hid_t time_dataset) {
     }
   }
   if (!epoch) {
-    f.format_error("/time", "units '" + *units + "' are not supported; expected \"seconds since "
-                            "1970-01-01T00:00:00Z\"");
+    f.format_error("/time", "units '" + *units +
+                                "' are not supported; expected \"seconds since "
+                                "1970-01-01T00:00:00Z\"");
   }
 }
 
@@ -286,8 +288,9 @@ ReadResult read_hdf5(const std::filesystem::path& path, const ReadOptions& optio
   const auto version = number_attribute(f, root, "/", "runnel_layout_version");
   if (!version) f.format_error("/", "root attribute 'runnel_layout_version' missing");
   if (*version != 1) {
-    f.format_error("/", "runnel_layout_version " + std::to_string(static_cast<long long>(*version)) + " is not supported; this reader "
-                        "reads version 1");
+    f.format_error("/", "runnel_layout_version " + std::to_string(static_cast<long long>(*version)) +
+                            " is not supported; this reader "
+                            "reads version 1");
   }
 
   // Time axis.
@@ -304,9 +307,8 @@ ReadResult read_hdf5(const std::filesystem::path& path, const ReadOptions& optio
       H5Dread(time_dataset.get(), H5T_NATIVE_INT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, times.data()) < 0) {
     f.io_error("/time", "reading");
   }
-  const data::TimeAxis axis = detail::regular_axis(times, f.source + ": /time", [](std::size_t i) {
-    return "index " + std::to_string(i);
-  });
+  const data::TimeAxis axis =
+      detail::regular_axis(times, f.source + ": /time", [](std::size_t i) { return "index " + std::to_string(i); });
 
   // Sites.
   const std::vector<std::string> ids = read_string_dataset(f, "/sites/id", 0);

@@ -106,9 +106,9 @@ void finish_panel(ReadResult& result, const ReadOptions& options, std::string_vi
     for (std::size_t i = 0; i < values.size(); ++i) {
       if (!std::isinf(values[i])) continue;
       const std::size_t t = i / variable_count;
-      throw DataError(std::string(source) + ": variable '" + panel.variables()[i % variable_count].name +
-                      "', site '" + panel.sites()[s].id + "', time " + data::format_iso8601(panel.axis().time_at(t)) +
-                      ": value is " + (values[i] > 0 ? "+Inf" : "-Inf") +
+      throw DataError(std::string(source) + ": variable '" + panel.variables()[i % variable_count].name + "', site '" +
+                      panel.sites()[s].id + "', time " + data::format_iso8601(panel.axis().time_at(t)) + ": value is " +
+                      (values[i] > 0 ? "+Inf" : "-Inf") +
                       "; infinite values are refused (write missing values as NaN)");
     }
   }
@@ -146,9 +146,12 @@ void finish_panel(ReadResult& result, const ReadOptions& options, std::string_vi
 
 std::string to_string(FileFormat format) {
   switch (format) {
-    case FileFormat::netcdf: return "netcdf";
-    case FileFormat::hdf5: return "hdf5";
-    case FileFormat::csv: return "csv";
+    case FileFormat::netcdf:
+      return "netcdf";
+    case FileFormat::hdf5:
+      return "hdf5";
+    case FileFormat::csv:
+      return "csv";
   }
   return "unknown";
 }
@@ -187,8 +190,8 @@ bool looks_like_csv_with_time(const std::string& head) {
     std::string_view line(head.data() + pos, end - pos);
     pos = end + 1;
     if (!line.empty() && line.back() == '\r') line.remove_suffix(1);
-    if (line.size() >= 3 && static_cast<unsigned char>(line[0]) == 0xEF && static_cast<unsigned char>(line[1]) == 0xBB &&
-        static_cast<unsigned char>(line[2]) == 0xBF) {
+    if (line.size() >= 3 && static_cast<unsigned char>(line[0]) == 0xEF &&
+        static_cast<unsigned char>(line[1]) == 0xBB && static_cast<unsigned char>(line[2]) == 0xBF) {
       line.remove_prefix(3);  // UTF-8 byte order mark
     }
     const auto first = line.find_first_not_of(" \t");
@@ -249,9 +252,12 @@ FileFormat detect_format(const std::filesystem::path& path) {
 
 ReadResult read_panel(const std::filesystem::path& path, const ReadOptions& options) {
   switch (detect_format(path)) {
-    case FileFormat::netcdf: return read_netcdf(path, options);
-    case FileFormat::hdf5: return read_hdf5(path, options);
-    case FileFormat::csv: return read_csv(path, options);
+    case FileFormat::netcdf:
+      return read_netcdf(path, options);
+    case FileFormat::hdf5:
+      return read_hdf5(path, options);
+    case FileFormat::csv:
+      return read_csv(path, options);
   }
   throw FormatError(path.string() + ": unknown format");
 }

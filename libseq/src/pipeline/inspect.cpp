@@ -38,7 +38,8 @@ FileInspection inspect_one(const std::filesystem::path& path, const io::ReadOpti
     for (std::size_t s = 0; s < panel.site_count(); ++s) {
       const data::SiteInfo& info = panel.sites()[s];
       InspectedSite site{info.id, info.name, info.latitude, info.longitude, {}};
-      for (std::size_t v = 0; v < panel.variable_count(); ++v) site.missing_fraction.push_back(panel.missing_fraction(s, v));
+      for (std::size_t v = 0; v < panel.variable_count(); ++v)
+        site.missing_fraction.push_back(panel.missing_fraction(s, v));
       file.sites.push_back(std::move(site));
     }
     const data::TimeAxis& axis = panel.axis();
@@ -58,9 +59,8 @@ FileInspection inspect_one(const std::filesystem::path& path, const io::ReadOpti
 
 // Display width of UTF-8 text: one column per code point (continuation bytes 10xxxxxx do not count).
 std::size_t display_width(const std::string& text) {
-  return static_cast<std::size_t>(std::count_if(text.begin(), text.end(), [](char c) {
-    return (static_cast<unsigned char>(c) & 0xC0) != 0x80;
-  }));
+  return static_cast<std::size_t>(
+      std::count_if(text.begin(), text.end(), [](char c) { return (static_cast<unsigned char>(c) & 0xC0) != 0x80; }));
 }
 
 std::string format_number(double value, const char* format) {
@@ -108,13 +108,27 @@ std::string json_string(const std::string& text) {
     const auto c = static_cast<unsigned char>(text[i]);
     if (c < 0x80) {
       switch (c) {
-        case '"': out += "\\\""; break;
-        case '\\': out += "\\\\"; break;
-        case '\n': out += "\\n"; break;
-        case '\r': out += "\\r"; break;
-        case '\t': out += "\\t"; break;
-        case '\b': out += "\\b"; break;
-        case '\f': out += "\\f"; break;
+        case '"':
+          out += "\\\"";
+          break;
+        case '\\':
+          out += "\\\\";
+          break;
+        case '\n':
+          out += "\\n";
+          break;
+        case '\r':
+          out += "\\r";
+          break;
+        case '\t':
+          out += "\\t";
+          break;
+        case '\b':
+          out += "\\b";
+          break;
+        case '\f':
+          out += "\\f";
+          break;
         default:
           if (c < 0x20) {
             char buffer[8];
@@ -223,15 +237,15 @@ std::string InspectReport::to_json() const {
     out += ",\n   \"variables\": [";
     for (std::size_t v = 0; v < file.variables.size(); ++v) {
       const auto& var = file.variables[v];
-      out += (v ? ", " : "") + std::string("{\"name\": ") + json_string(var.name) + ", \"units\": " +
-             json_string(var.units) + ", \"standard_name\": " + json_string(var.standard_name) + "}";
+      out += (v ? ", " : "") + std::string("{\"name\": ") + json_string(var.name) +
+             ", \"units\": " + json_string(var.units) + ", \"standard_name\": " + json_string(var.standard_name) + "}";
     }
     out += "],\n   \"sites\": [";
     for (std::size_t s = 0; s < file.sites.size(); ++s) {
       const auto& site = file.sites[s];
-      out += (s ? ",\n     " : "\n     ") + std::string("{\"id\": ") + json_string(site.id) + ", \"name\": " +
-             json_string(site.name) + ", \"latitude\": " + json_number(site.latitude) + ", \"longitude\": " +
-             json_number(site.longitude) + ", \"missing_fraction\": {";
+      out += (s ? ",\n     " : "\n     ") + std::string("{\"id\": ") + json_string(site.id) +
+             ", \"name\": " + json_string(site.name) + ", \"latitude\": " + json_number(site.latitude) +
+             ", \"longitude\": " + json_number(site.longitude) + ", \"missing_fraction\": {";
       for (std::size_t v = 0; v < site.missing_fraction.size() && v < file.variables.size(); ++v) {
         out += (v ? ", " : "") + json_string(file.variables[v].name) + ": " + json_number(site.missing_fraction[v]);
       }
@@ -242,8 +256,8 @@ std::string InspectReport::to_json() const {
     out += "]}";
   }
   out += "\n ],\n \"file_count\": " + std::to_string(files.size()) +
-         ", \"failed_count\": " + std::to_string(failed_count()) +
-         ",\n \"caution\": " + json_string(caution_text()) + "}\n";
+         ", \"failed_count\": " + std::to_string(failed_count()) + ",\n \"caution\": " + json_string(caution_text()) +
+         "}\n";
   return out;
 }
 

@@ -24,7 +24,7 @@ struct InspectedVariable {
 /// One site kept by the reader, with the missing fraction of each variable.
 struct InspectedSite {
   std::string id;
-  std::string name;  ///< may be empty
+  std::string name;      ///< may be empty
   double latitude = 0;   ///< degrees_north; NaN when unknown
   double longitude = 0;  ///< degrees_east; NaN when unknown
   /// Fraction of missing (NaN) values in [0, 1], one per entry of FileInspection::variables, same order.
@@ -39,11 +39,11 @@ struct FileInspection {
   std::string error_kind;                ///< "io", "format", "data", "config" or "other"; empty when read
   std::vector<InspectedVariable> variables;
   std::vector<InspectedSite> sites;
-  std::string time_start;         ///< ISO 8601 UTC of the first step ("YYYY-MM-DDThh:mm:ssZ")
-  std::string time_end;           ///< ISO 8601 UTC of the last step
-  std::int64_t step_seconds = 0;  ///< regular step of the axis, seconds
-  std::string step;               ///< step in words ("1 day", "6 hours")
-  std::size_t time_count = 0;     ///< number of steps
+  std::string time_start;             ///< ISO 8601 UTC of the first step ("YYYY-MM-DDThh:mm:ssZ")
+  std::string time_end;               ///< ISO 8601 UTC of the last step
+  std::int64_t step_seconds = 0;      ///< regular step of the axis, seconds
+  std::string step;                   ///< step in words ("1 day", "6 hours")
+  std::size_t time_count = 0;         ///< number of steps
   std::vector<std::string> warnings;  ///< reader warnings (e.g. a site skipped because it is all missing)
 
   /// Whether the file was read.
