@@ -18,12 +18,14 @@ Command add_report_command(CLI::App& root) {
     libseq::pipeline::ReportOptions options;
   };
   auto args = std::make_shared<Arguments>();
-  auto* app = root.add_subcommand("report", "Write a self-contained HTML report (charts, scores, provenance) of a "
-                                            "results file");
+  auto* app = root.add_subcommand("report",
+                                  "Write a self-contained HTML report (charts, scores, provenance) of a "
+                                  "results file");
   app->add_option("results", args->results, "Results file written by `runnel run` (HDF5)")->required();
   app->add_option("-o,--output", args->output, "Report to write (default: the results path with .html)");
-  app->add_option("--lead", args->options.chart_leads, "Lead (steps) to chart; repeat for several (default: first, "
-                                                       "middle and last)");
+  app->add_option("--lead", args->options.chart_leads,
+                  "Lead (steps) to chart; repeat for several (default: first, "
+                  "middle and last)");
   app->add_option("--max-points", args->options.max_points_per_series, "Most points drawn per series")
       ->capture_default_str();
   app->add_option("--open-sites", args->options.open_sites, "Site sections expanded when the page opens")

@@ -111,7 +111,7 @@ TEST(Report, HasOneSectionPerSiteWithItsAnchorAndIndexEntry) {
   EXPECT_NE(sections[0].find("id=\"site-alder-01\""), std::string::npos);
   EXPECT_NE(sections[2].find("id=\"site-c3\""), std::string::npos);
   EXPECT_NE(html.find("href=\"#site-alder-01\""), std::string::npos);
-  EXPECT_EQ(count(html, "<tbody data-key="), 3u);  // the searchable index has one entry per site
+  EXPECT_EQ(count(html, "<tbody data-key="), 3u);            // the searchable index has one entry per site
   EXPECT_NE(sections[0].find(" open>"), std::string::npos);  // open_sites = 1
   EXPECT_EQ(sections[1].find(" open>"), std::string::npos);
   // The third site has no training of its own and points to the model across sites.
@@ -137,7 +137,7 @@ TEST(Report, DrawsTheExpectedChartsWithMatchingSeriesCounts) {
   EXPECT_NE(site_charts[2].find("Hindcast at lead 3 (3 days)"), std::string::npos);
   EXPECT_NE(site_charts[0].find("90% interval"), std::string::npos);  // widest pair 0.05..0.95
   EXPECT_NE(site_charts[0].find("50% interval"), std::string::npos);  // narrowest pair 0.25..0.75
-  EXPECT_EQ(charts_of(sections[2]).size(), 5u);  // no training charts of its own
+  EXPECT_EQ(charts_of(sections[2]).size(), 5u);                       // no training charts of its own
 }
 
 TEST(Report, EscapesMarkupInSiteIdsAndNames) {
@@ -241,8 +241,8 @@ TEST(DecimateMinMax, KeepsExtremesAndGapsWithinTheBudget) {
     x[i] = static_cast<double>(i);
     y[i] = std::sin(static_cast<double>(i) / 300.0);
   }
-  y[5003] = 1e6;   // a spike
-  y[7777] = -1e6;  // a trough
+  y[5003] = 1e6;                                         // a spike
+  y[7777] = -1e6;                                        // a trough
   for (std::size_t i = 2000; i < 2100; ++i) y[i] = NAN;  // longer than a bucket (10000 / 750 ≈ 13 points)
   const auto points = detail::decimate_min_max(x, y, 1500);
   EXPECT_LE(points.size(), 1500u);

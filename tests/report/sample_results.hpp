@@ -6,8 +6,8 @@
 // missing observations, so the report has lines, bands, dots and gaps to draw.
 
 #include <cmath>
-#include <numbers>
 #include <cstdint>
+#include <numbers>
 #include <string>
 #include <vector>
 
@@ -58,7 +58,9 @@ inline io::RunResults sample_results(std::size_t issue_count) {
     io::ForecastBlock network{"network", {}, {}, levels, {}, 0, {}};
     io::ForecastBlock persistence{"persistence", {}, {}, {}, {}, 0, {}};
     io::ForecastBlock climatology{"climatology", {}, {}, {0.1, 0.9}, {}, 0, {}};
-    auto truth = [&](std::size_t t) { return 20 + 8 * std::sin(2 * std::numbers::pi * static_cast<double>(t) / 365.25); };
+    auto truth = [&](std::size_t t) {
+      return 20 + 8 * std::sin(2 * std::numbers::pi * static_cast<double>(t) / 365.25);
+    };
     for (std::size_t i = 0; i < issue_count; ++i) {
       site.issue_times.push_back(978307200 + static_cast<std::int64_t>(i) * 86400);  // from 2001-01-01
       for (std::size_t l = 0; l < leads; ++l) {

@@ -58,7 +58,8 @@ double quantile_set_pit(std::span<const double> levels, std::span<const float> q
   }
   if (tied > 0) return tied_sum / static_cast<double>(tied);
   // q_j < y < q_{j+1}: linear interpolation of the level.
-  const auto upper = static_cast<std::size_t>(std::upper_bound(values.begin(), values.end(), observed) - values.begin());
+  const auto upper =
+      static_cast<std::size_t>(std::upper_bound(values.begin(), values.end(), observed) - values.begin());
   const std::size_t lower = upper - 1;
   const double weight = (observed - values[lower]) / (values[upper] - values[lower]);
   return levels[lower] + weight * (levels[upper] - levels[lower]);
@@ -159,11 +160,11 @@ enum class Better { higher, lower, one, zero, none };
 
 Better orientation(const std::string& metric) {
   static const std::map<std::string, Better> known = {
-      {"nse", Better::higher},         {"kge", Better::higher},      {"kge_r", Better::higher},
-      {"kge_prime", Better::higher},   {"kge_alpha", Better::one},   {"kge_beta", Better::one},
+      {"nse", Better::higher},          {"kge", Better::higher},      {"kge_r", Better::higher},
+      {"kge_prime", Better::higher},    {"kge_alpha", Better::one},   {"kge_beta", Better::one},
       {"kge_prime_gamma", Better::one}, {"pbias", Better::zero},      {"rmse", Better::lower},
-      {"mae", Better::lower},          {"mape", Better::lower},      {"mase", Better::lower},
-      {"crps", Better::lower},         {"crps_fair", Better::lower}, {"pinball", Better::lower},
+      {"mae", Better::lower},           {"mape", Better::lower},      {"mase", Better::lower},
+      {"crps", Better::lower},          {"crps_fair", Better::lower}, {"pinball", Better::lower},
       {"interval_score", Better::lower}};
   const auto it = known.find(metric);
   if (it != known.end()) return it->second;
@@ -177,20 +178,33 @@ Better orientation(const std::string& metric) {
 double badness(const std::string& metric, double value) {
   if (!std::isfinite(value)) return std::numeric_limits<double>::quiet_NaN();
   switch (orientation(metric)) {
-    case Better::higher: return -value;
-    case Better::lower: return value;
-    case Better::one: return std::abs(value - 1);
-    case Better::zero: return std::abs(value);
-    case Better::none: break;
+    case Better::higher:
+      return -value;
+    case Better::lower:
+      return value;
+    case Better::one:
+      return std::abs(value - 1);
+    case Better::zero:
+      return std::abs(value);
+    case Better::none:
+      break;
   }
   return std::numeric_limits<double>::quiet_NaN();
 }
 
 std::string metric_heading(const std::string& metric) {
-  static const std::map<std::string, std::string> names = {
-      {"nse", "NSE"},       {"kge", "KGE"},     {"mape", "MAPE"}, {"crps", "CRPS"},     {"coverage", "coverage"},
-      {"mean_width", "mean width"}, {"rmse", "RMSE"}, {"mae", "MAE"}, {"mase", "MASE"}, {"pbias", "PBIAS"},
-      {"crps_fair", "fair CRPS"}, {"interval_score", "interval score"}};
+  static const std::map<std::string, std::string> names = {{"nse", "NSE"},
+                                                           {"kge", "KGE"},
+                                                           {"mape", "MAPE"},
+                                                           {"crps", "CRPS"},
+                                                           {"coverage", "coverage"},
+                                                           {"mean_width", "mean width"},
+                                                           {"rmse", "RMSE"},
+                                                           {"mae", "MAE"},
+                                                           {"mase", "MASE"},
+                                                           {"pbias", "PBIAS"},
+                                                           {"crps_fair", "fair CRPS"},
+                                                           {"interval_score", "interval score"}};
   const auto it = names.find(metric);
   return it != names.end() ? it->second : metric;
 }
@@ -301,11 +315,16 @@ class ReportWriter {
     resolve_leads();
     std::string title = o_.title.empty() ? r_.title : o_.title;
     if (title.empty()) title = "runnel results";
-    html_ += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
-             "<meta name=\"generator\" content=\"runnel " + escape_html(r_.provenance.library_version) + "\">\n"
-             "<title>" + escape_html(title) + "</title>\n<style>\n" + detail::report_css() + "</style>\n</head>\n"
-             "<body>\n";
+    html_ +=
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+        "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+        "<meta name=\"generator\" content=\"runnel " +
+        escape_html(r_.provenance.library_version) +
+        "\">\n"
+        "<title>" +
+        escape_html(title) + "</title>\n<style>\n" + detail::report_css() +
+        "</style>\n</head>\n"
+        "<body>\n";
     header(title);
     index();
     across_sites_training();
@@ -313,7 +332,8 @@ class ReportWriter {
     for (std::size_t s = 0; s < r_.sites.size(); ++s) site_section(s);
     html_ += "</main>\n";
     html_ += "<footer>Written by runnel " + escape_html(r_.provenance.library_version) + " from the results of " +
-             escape_html(r_.provenance.created) + ". Charts are drawn from the stored hindcasts; see docs/report.md "
+             escape_html(r_.provenance.created) +
+             ". Charts are drawn from the stored hindcasts; see docs/report.md "
              "for how each is computed.</footer>\n";
     html_ += "<script>\n" + detail::report_script() + "</script>\n</body>\n</html>\n";
     return std::move(html_);
@@ -390,8 +410,9 @@ class ReportWriter {
     fact("seeds", seeds);
     html_ += "</dl>\n";
     if (!p.inputs.empty()) {
-      html_ += "<table class=\"inputs\"><caption>Input files</caption><thead><tr><th>path</th><th>SHA-256</th></tr>"
-               "</thead><tbody>\n";
+      html_ +=
+          "<table class=\"inputs\"><caption>Input files</caption><thead><tr><th>path</th><th>SHA-256</th></tr>"
+          "</thead><tbody>\n";
       for (const auto& f : p.inputs) {
         html_ += "<tr><td>" + escape_html(f.path) + "</td><td class=\"hash\">" + escape_html(f.sha256) + "</td></tr>\n";
       }
@@ -411,7 +432,7 @@ class ReportWriter {
 
   // Pooled-over-leads rows of one site, by (method, metric).
   std::map<std::pair<std::string, std::string>, const io::MetricRow*> rows_of(const std::string& site,
-                                                                                std::int64_t lead) const {
+                                                                              std::int64_t lead) const {
     std::map<std::pair<std::string, std::string>, const io::MetricRow*> rows;
     for (const auto& row : r_.metrics) {
       if (row.site == site && row.lead == lead) rows[{row.method, row.metric}] = &row;
@@ -419,9 +440,9 @@ class ReportWriter {
     return rows;
   }
 
-  std::vector<std::string> method_order(const io::SiteResults& site,
-                                        const std::map<std::pair<std::string, std::string>, const io::MetricRow*>&
-                                            rows) const {
+  std::vector<std::string> method_order(
+      const io::SiteResults& site,
+      const std::map<std::pair<std::string, std::string>, const io::MetricRow*>& rows) const {
     std::vector<std::string> out;
     auto add = [&](const std::string& m) {
       if (std::find(out.begin(), out.end(), m) == out.end()) out.push_back(m);
@@ -441,20 +462,23 @@ class ReportWriter {
       if (row.lead == -1 && summary_metrics.count(row.metric)) present.insert(row.metric);
     }
     const auto columns = order_metrics(present);
-    html_ += "<nav id=\"site-index\" aria-label=\"Sites\">\n<h2>Sites</h2>\n<p class=\"filter\"><label>Find a site "
-             "<input type=\"search\" id=\"runnel-filter\" placeholder=\"id or name\" autocomplete=\"off\"></label> "
-             "<span id=\"runnel-filter-count\">" + std::to_string(r_.sites.size()) + " sites</span></p>\n";
-    html_ += "<table class=\"index\"><caption>Scores pooled over all leads; the best value of each column within a "
-             "site is marked. Coverage and mean width are not ranked (their best depends on the nominal level)."
-             "</caption>\n<thead><tr><th>site</th><th>method</th>";
+    html_ +=
+        "<nav id=\"site-index\" aria-label=\"Sites\">\n<h2>Sites</h2>\n<p class=\"filter\"><label>Find a site "
+        "<input type=\"search\" id=\"runnel-filter\" placeholder=\"id or name\" autocomplete=\"off\"></label> "
+        "<span id=\"runnel-filter-count\">" +
+        std::to_string(r_.sites.size()) + " sites</span></p>\n";
+    html_ +=
+        "<table class=\"index\"><caption>Scores pooled over all leads; the best value of each column within a "
+        "site is marked. Coverage and mean width are not ranked (their best depends on the nominal level)."
+        "</caption>\n<thead><tr><th>site</th><th>method</th>";
     for (const auto& c : columns) html_ += "<th>" + escape_html(metric_heading(c)) + "</th>";
     html_ += "</tr></thead>\n";
     for (const auto& site : r_.sites) {
       const auto rows = rows_of(site.site.id, -1);
       auto methods = method_order(site, rows);
       if (methods.empty()) methods.push_back("\u2013");
-      std::string label = "<a href=\"#" + percent_encode(site_anchor(site.site.id)) + "\">" +
-                          escape_html(site.site.id) + "</a>";
+      std::string label =
+          "<a href=\"#" + percent_encode(site_anchor(site.site.id)) + "\">" + escape_html(site.site.id) + "</a>";
       if (!site.site.name.empty()) label += "<br><span class=\"name\">" + escape_html(site.site.name) + "</span>";
       html_ += "<tbody data-key=\"" + escape_html(lower_ascii(site.site.id + " " + site.site.name)) + "\">\n";
       html_ += metric_table_body(methods, columns, rows, label, methods.size());
@@ -480,9 +504,10 @@ class ReportWriter {
   }
 
   void training_block(const std::vector<const io::TrainingRecord*>& records, const std::string& what) {
-    html_ += "<table class=\"members\"><thead><tr><th>member</th><th>seed</th><th>ended by</th><th>epochs</th>"
-             "<th>best epoch</th><th>best validation loss</th><th>clipped steps</th><th>time</th></tr></thead>"
-             "<tbody>\n";
+    html_ +=
+        "<table class=\"members\"><thead><tr><th>member</th><th>seed</th><th>ended by</th><th>epochs</th>"
+        "<th>best epoch</th><th>best validation loss</th><th>clipped steps</th><th>time</th></tr></thead>"
+        "<tbody>\n";
     for (const auto* t : records) {
       char seconds[32];
       std::snprintf(seconds, sizeof seconds, "%.1f s", t->seconds);
@@ -550,7 +575,8 @@ class ReportWriter {
           first_validation = false;
         }
       }
-      html_ += "<figure>" + chart.render() + "<figcaption>One solid line per member for the training loss and one "
+      html_ += "<figure>" + chart.render() +
+               "<figcaption>One solid line per member for the training loss and one "
                "dashed line for the validation loss.</figcaption></figure>\n";
     }
 
@@ -595,7 +621,8 @@ class ReportWriter {
         chart.add_line(points, baseline_colours[1], first ? "members" : "", false, 0.8);
         first = false;
       }
-      html_ += "<figure>" + chart.render() + "<figcaption>Norm of the gradient of the loss with respect to the input "
+      html_ += "<figure>" + chart.render() +
+               "<figcaption>Norm of the gradient of the loss with respect to the input "
                "k steps back, one line per member; a steep fall means distant inputs barely shape the forecast."
                "</figcaption></figure>\n";
     }
@@ -665,13 +692,11 @@ class ReportWriter {
     std::size_t baseline = 0;
     for (std::size_t k = 0; k < site.methods.size(); ++k) {
       const bool is_network = &site.methods[k] == network;
-      const char* colour = is_network ? network_colour
-                                      : baseline_colours[baseline++ % std::size(baseline_colours)];
+      const char* colour = is_network ? network_colour : baseline_colours[baseline++ % std::size(baseline_colours)];
       chart.add_line(detail::decimate_min_max(x, medians[k], max_points), colour, site.methods[k].method + " median");
     }
     chart.add_dots(detail::decimate_min_max(x, observed, max_points), observed_colour, "observed");
-    html_ += "<figure class=\"hindcast\" data-lead=\"" + std::to_string(lead) + "\">" + chart.render() +
-             "</figure>\n";
+    html_ += "<figure class=\"hindcast\" data-lead=\"" + std::to_string(lead) + "\">" + chart.render() + "</figure>\n";
   }
 
   void calibration_charts(const io::SiteResults& site, const io::ForecastBlock& network) {
@@ -698,7 +723,8 @@ class ReportWriter {
       SvgChart chart(frame);
       chart.add_bars(density, network_colour, "PIT frequency");
       chart.add_reference(0, 1, 1, 1, "uniform");
-      html_ += "<figure>" + chart.render() + "<figcaption>PIT by linear interpolation between the stored quantile "
+      html_ += "<figure>" + chart.render() +
+               "<figcaption>PIT by linear interpolation between the stored quantile "
                "levels, 0 below the lowest and 1 above the highest quantile; a flat histogram at density 1 is "
                "calibrated, a U shape too narrow, a hump too wide.</figcaption></figure>\n";
     }
@@ -714,7 +740,8 @@ class ReportWriter {
       for (const auto& p : calibration.reliability) points.push_back({p.nominal, p.observed});
       chart.add_markers(points, network_colour, network.method);
       chart.add_reference(0, 0, 1, 1, "ideal");
-      html_ += "<figure>" + chart.render() + "<figcaption>For each quantile level, the fraction of observations at "
+      html_ += "<figure>" + chart.render() +
+               "<figcaption>For each quantile level, the fraction of observations at "
                "or below that quantile; points on the diagonal are reliable.</figcaption></figure>\n";
     }
     html_ += "</div>\n";
@@ -789,8 +816,8 @@ class ReportWriter {
         if (rows.empty()) continue;
         const auto methods = method_order(site, rows);
         const std::string label = lead == -1 ? "all leads" : std::to_string(lead);
-        html_ += "<tbody>" + metric_table_body(methods, columns, rows, escape_html(label), methods.size()) +
-                 "</tbody>\n";
+        html_ +=
+            "<tbody>" + metric_table_body(methods, columns, rows, escape_html(label), methods.size()) + "</tbody>\n";
       }
       html_ += "</table>\n";
     }
@@ -800,8 +827,9 @@ class ReportWriter {
       html_ += "<h3>Training</h3>\n";
       training_block(records, "site " + id);
     } else if (!training_of("*").empty()) {
-      html_ += "<p class=\"note\">This site was forecast by the <a href=\"#training-across-sites\">model trained "
-               "across sites</a>.</p>\n";
+      html_ +=
+          "<p class=\"note\">This site was forecast by the <a href=\"#training-across-sites\">model trained "
+          "across sites</a>.</p>\n";
     }
     html_ += "</details>\n";
   }

@@ -44,7 +44,8 @@ std::vector<double> nice_ticks(double lo, double hi, int target) {
     step = factor * magnitude;
     if (step >= raw) break;
   }
-  for (double t = std::ceil(lo / step) * step; t <= hi + step * 1e-9; t += step) ticks.push_back(std::abs(t) < step * 1e-9 ? 0 : t);
+  for (double t = std::ceil(lo / step) * step; t <= hi + step * 1e-9; t += step)
+    ticks.push_back(std::abs(t) < step * 1e-9 ? 0 : t);
   return ticks;
 }
 
@@ -68,12 +69,23 @@ std::string escape_html(std::string_view text) {
   out.reserve(text.size());
   for (char c : text) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&#39;"; break;
-      default: out += c;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      case '\'':
+        out += "&#39;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
@@ -138,44 +150,90 @@ double SvgChart::py(double y) const {
   return margin_top + plot - (span > 0 ? (v - lo) / span : 0.5) * plot;
 }
 
+// Series are drawn inside <g transform="scale(0.1)"> in tenths of a user unit, as whole numbers and relative
+// moves: "M812 2490l6-31 6 12..." costs about 6 bytes per point instead of about 12 for absolute decimals, which is
+// what keeps a report of hundreds of long series small. Differences of rounded integers are exact, so no error
+// builds up along a path.
+long SvgChart::tx(double x) const { return std::lround(px(x) * series_scale); }
+long SvgChart::ty(double y) const { return std::lround(py(y) * series_scale); }
+
+namespace {
+
+// A coordinate pair in path syntax; a minus sign separates numbers by itself.
+void append_pair(std::string& d, long a, long b) {
+  d += std::to_string(a);
+  if (b >= 0) d += ' ';
+  d += std::to_string(b);
+}
+
+}  // namespace
+
+bool SvgChart::usable(const Point& p) const {
+  return std::isfinite(p.y) && std::isfinite(p.x) && (!frame_.y_log || p.y > 0);
+}
+
 std::string SvgChart::path_of(const std::vector<Point>& points, bool dots) const {
   std::string d;
   bool pen_down = false;
+  long last_x = 0, last_y = 0;
   for (const Point& p : points) {
-    const bool usable = std::isfinite(p.y) && std::isfinite(p.x) && (!frame_.y_log || p.y > 0);
-    if (!usable) {
+    if (!usable(p)) {
       pen_down = false;
       continue;
     }
-    const std::string xy = coordinate(px(p.x)) + " " + coordinate(py(p.y));
+    const long x = tx(p.x), y = ty(p.y);
     if (dots) {
-      d += "M" + xy + "h0";
-    } else {
-      d += (pen_down ? "L" : "M") + xy;
+      // Each dot is a zero-length segment with a round cap; "h0" ends the implicit repetition, so every dot after
+      // the first starts with a relative move.
+      if (d.empty()) {
+        d += 'M';
+        append_pair(d, x, y);
+      } else {
+        d += 'm';
+        append_pair(d, x - last_x, y - last_y);
+      }
+      d += "h0";
+    } else if (!pen_down) {
+      d += 'M';
+      append_pair(d, x, y);
+      d += 'l';
       pen_down = true;
+    } else {
+      if (d.back() != 'l' && x - last_x >= 0) d += ' ';
+      append_pair(d, x - last_x, y - last_y);
     }
+    last_x = x;
+    last_y = y;
   }
-  return d;
+  // A sub-path that is only "Mx yl" (a single point) is valid but draws nothing; drop the dangling command letter.
+  std::string cleaned;
+  cleaned.reserve(d.size());
+  for (std::size_t i = 0; i < d.size(); ++i) {
+    if (d[i] == 'l' && (i + 1 == d.size() || d[i + 1] == 'M')) continue;
+    cleaned += d[i];
+  }
+  return cleaned;
 }
 
-void SvgChart::add_legend(const std::string& colour, const std::string& label, const std::string& kind) {
+void SvgChart::add_legend(const std::string& colour, const std::string& label, const std::string& kind,
+                          double opacity) {
   if (label.empty()) return;  // further members of a family share the first one's legend entry
-  legend_.push_back({colour, label, kind});
+  legend_.push_back({colour, label, kind, opacity});
 }
 
 void SvgChart::add_line(const std::vector<Point>& points, const std::string& colour, const std::string& label,
                         bool dashed, double opacity) {
   body_ += "<path class=\"series line\" data-label=\"" + escape_html(label) + "\" fill=\"none\" stroke=\"" + colour +
-           "\" stroke-width=\"1.6\" stroke-linejoin=\"round\"" + (dashed ? " stroke-dasharray=\"5 3\"" : "") +
-           (opacity < 1 ? " stroke-opacity=\"" + fraction(opacity) + "\"" : "") + " d=\"" +
-           path_of(points, false) + "\"/>\n";
+           "\" stroke-width=\"16\" stroke-linejoin=\"round\"" + (dashed ? " stroke-dasharray=\"50 30\"" : "") +
+           (opacity < 1 ? " stroke-opacity=\"" + fraction(opacity) + "\"" : "") + " d=\"" + path_of(points, false) +
+           "\"/>\n";
   ++series_count_;
   add_legend(colour, label, dashed ? "dash" : "line");
 }
 
 void SvgChart::add_dots(const std::vector<Point>& points, const std::string& colour, const std::string& label) {
   body_ += "<path class=\"series dots\" data-label=\"" + escape_html(label) + "\" fill=\"none\" stroke=\"" + colour +
-           "\" stroke-width=\"3.2\" stroke-linecap=\"round\" d=\"" + path_of(points, true) + "\"/>\n";
+           "\" stroke-width=\"32\" stroke-linecap=\"round\" d=\"" + path_of(points, true) + "\"/>\n";
   ++series_count_;
   add_legend(colour, label, "dot");
 }
@@ -186,25 +244,35 @@ void SvgChart::add_band(const std::vector<Point>& upper, const std::vector<Point
   std::string d;
   const std::size_t n = std::min(upper.size(), lower.size());
   std::size_t i = 0;
-  auto usable = [&](std::size_t k) {
-    return std::isfinite(upper[k].y) && std::isfinite(lower[k].y) && (!frame_.y_log || (upper[k].y > 0 && lower[k].y > 0));
-  };
+  auto both = [&](std::size_t k) { return usable(upper[k]) && usable(lower[k]); };
   while (i < n) {
-    if (!usable(i)) {
+    if (!both(i)) {
       ++i;
       continue;
     }
     std::size_t j = i;
-    while (j < n && usable(j)) ++j;
-    for (std::size_t k = i; k < j; ++k) d += (k == i ? "M" : "L") + coordinate(px(upper[k].x)) + " " + coordinate(py(upper[k].y));
-    for (std::size_t k = j; k-- > i;) d += "L" + coordinate(px(lower[k].x)) + " " + coordinate(py(lower[k].y));
-    d += "Z";
+    while (j < n && both(j)) ++j;
+    long last_x = tx(upper[i].x), last_y = ty(upper[i].y);
+    d += 'M';
+    append_pair(d, last_x, last_y);
+    d += 'l';
+    auto step = [&](const Point& p) {
+      const long x = tx(p.x), y = ty(p.y);
+      if (d.back() != 'l' && x - last_x >= 0) d += ' ';
+      append_pair(d, x - last_x, y - last_y);
+      last_x = x;
+      last_y = y;
+    };
+    for (std::size_t k = i + 1; k < j; ++k) step(upper[k]);
+    for (std::size_t k = j; k-- > i;) step(lower[k]);
+    d += 'Z';
     i = j;
   }
   body_ += "<path class=\"series band\" data-label=\"" + escape_html(label) + "\" stroke=\"none\" fill=\"" + colour +
            "\" fill-opacity=\"" + fraction(opacity) + "\" d=\"" + d + "\"/>\n";
   ++series_count_;
-  add_legend(colour, label, "band");
+  // Swatches are small, so they are drawn stronger than the band itself, keeping the bands' order of strength.
+  add_legend(colour, label, "band", std::min(1.0, 1.6 * opacity));
 }
 
 void SvgChart::add_bars(const std::vector<double>& heights, const std::string& colour, const std::string& label) {
@@ -212,10 +280,10 @@ void SvgChart::add_bars(const std::vector<double>& heights, const std::string& c
   const double width = heights.empty() ? 0 : (frame_.x_max - frame_.x_min) / static_cast<double>(heights.size());
   for (std::size_t b = 0; b < heights.size(); ++b) {
     if (!std::isfinite(heights[b])) continue;
-    const double left = px(frame_.x_min + b * width) + 1, right = px(frame_.x_min + (b + 1) * width) - 1;
-    const double top = py(heights[b]), bottom = py(std::max(frame_.y_min, 0.0));
-    d += "M" + coordinate(left) + " " + coordinate(bottom) + "V" + coordinate(top) + "H" + coordinate(right) + "V" +
-         coordinate(bottom) + "Z";
+    const long left = tx(frame_.x_min + b * width) + 10, right = tx(frame_.x_min + (b + 1) * width) - 10;
+    const long top = ty(heights[b]), bottom = ty(std::max(frame_.y_min, 0.0));
+    d += "M" + std::to_string(left) + " " + std::to_string(bottom) + "V" + std::to_string(top) + "H" +
+         std::to_string(right) + "V" + std::to_string(bottom) + "Z";
   }
   body_ += "<path class=\"series bars\" data-label=\"" + escape_html(label) + "\" stroke=\"none\" fill=\"" + colour +
            "\" d=\"" + d + "\"/>\n";
@@ -225,15 +293,15 @@ void SvgChart::add_bars(const std::vector<double>& heights, const std::string& c
 
 void SvgChart::add_markers(const std::vector<Point>& points, const std::string& colour, const std::string& label) {
   body_ += "<g class=\"series markers\" data-label=\"" + escape_html(label) + "\"><path fill=\"none\" stroke=\"" +
-           colour + "\" stroke-width=\"1.4\" d=\"" + path_of(points, false) + "\"/><path fill=\"none\" stroke=\"" +
-           colour + "\" stroke-width=\"7\" stroke-linecap=\"round\" d=\"" + path_of(points, true) + "\"/></g>\n";
+           colour + "\" stroke-width=\"14\" d=\"" + path_of(points, false) + "\"/><path fill=\"none\" stroke=\"" +
+           colour + "\" stroke-width=\"70\" stroke-linecap=\"round\" d=\"" + path_of(points, true) + "\"/></g>\n";
   ++series_count_;
   add_legend(colour, label, "line");
 }
 
 void SvgChart::add_reference(double x0, double y0, double x1, double y1, const std::string& label) {
-  references_ += "<line class=\"reference\" x1=\"" + coordinate(px(x0)) + "\" y1=\"" + coordinate(py(y0)) +
-                 "\" x2=\"" + coordinate(px(x1)) + "\" y2=\"" + coordinate(py(y1)) +
+  references_ += "<line class=\"reference\" x1=\"" + coordinate(px(x0)) + "\" y1=\"" + coordinate(py(y0)) + "\" x2=\"" +
+                 coordinate(px(x1)) + "\" y2=\"" + coordinate(py(y1)) +
                  "\" stroke=\"#8a8f98\" stroke-width=\"1.2\" stroke-dasharray=\"2 3\"/>\n";
   add_legend("#8a8f98", label, "dash");
 }
@@ -286,9 +354,8 @@ std::string SvgChart::render() const {
     const std::string x = coordinate(px(t));
     grid += "<line x1=\"" + x + "\" y1=\"" + coordinate(margin_top) + "\" x2=\"" + x + "\" y2=\"" +
             coordinate(plot_bottom) + "\"/>";
-    const std::string text = frame_.x_format == AxisFormat::utc_time
-                                 ? time_text(t, frame_.x_max - frame_.x_min)
-                                 : tick_text(t);
+    const std::string text =
+        frame_.x_format == AxisFormat::utc_time ? time_text(t, frame_.x_max - frame_.x_min) : tick_text(t);
     // The outermost time labels are anchored inwards so that they stay inside the chart.
     const char* anchor = "middle";
     if (frame_.x_format == AxisFormat::utc_time && k == 0) anchor = "start";
@@ -304,7 +371,7 @@ std::string SvgChart::render() const {
   svg += "<text class=\"axis-label\" text-anchor=\"middle\" transform=\"translate(14 " +
          coordinate((margin_top + plot_bottom) / 2) + ") rotate(-90)\">" + escape_html(frame_.y_label) + "</text>\n";
 
-  svg += "<g class=\"plot\">\n" + body_ + references_ + "</g>\n";
+  svg += "<g class=\"plot\" transform=\"scale(0.1)\">\n" + body_ + "</g>\n" + references_;
 
   // Legend: one row along the bottom.
   double x = margin_left;
@@ -314,16 +381,14 @@ std::string SvgChart::render() const {
     const std::string sx = coordinate(x), sy = coordinate(y - 4);
     if (item.kind == "band") {
       svg += "<rect x=\"" + sx + "\" y=\"" + coordinate(y - 9) + "\" width=\"16\" height=\"9\" fill=\"" + item.colour +
-             "\" fill-opacity=\"0.45\"/>";
+             "\" fill-opacity=\"" + fraction(item.opacity) + "\"/>";
     } else if (item.kind == "dot") {
       svg += "<circle cx=\"" + coordinate(x + 8) + "\" cy=\"" + sy + "\" r=\"2.5\" fill=\"" + item.colour + "\"/>";
     } else {
-      svg += "<line x1=\"" + sx + "\" y1=\"" + sy + "\" x2=\"" + coordinate(x + 16) + "\" y2=\"" + sy +
-             "\" stroke=\"" + item.colour + "\" stroke-width=\"2\"" +
-             (item.kind == "dash" ? " stroke-dasharray=\"4 2\"" : "") + "/>";
+      svg += "<line x1=\"" + sx + "\" y1=\"" + sy + "\" x2=\"" + coordinate(x + 16) + "\" y2=\"" + sy + "\" stroke=\"" +
+             item.colour + "\" stroke-width=\"2\"" + (item.kind == "dash" ? " stroke-dasharray=\"4 2\"" : "") + "/>";
     }
-    svg += "<text x=\"" + coordinate(x + 21) + "\" y=\"" + coordinate(y) + "\">" + escape_html(item.label) +
-           "</text>";
+    svg += "<text x=\"" + coordinate(x + 21) + "\" y=\"" + coordinate(y) + "\">" + escape_html(item.label) + "</text>";
     x += 30 + 6.2 * static_cast<double>(item.label.size());
   }
   svg += "</g>\n</svg>\n";

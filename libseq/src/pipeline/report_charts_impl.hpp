@@ -33,12 +33,12 @@ enum class AxisFormat { number, utc_time };
 
 /// Description of a chart's frame and axes.
 struct ChartFrame {
-  std::string title;        ///< shown in the SVG <title> and as the heading inside the chart
+  std::string title;  ///< shown in the SVG <title> and as the heading inside the chart
   std::string x_label;
   std::string y_label;
   AxisFormat x_format = AxisFormat::number;
-  bool y_log = false;       ///< log10 y axis (values <= 0 are dropped)
-  double width = 960;       ///< SVG user units
+  bool y_log = false;  ///< log10 y axis (values <= 0 are dropped)
+  double width = 960;  ///< SVG user units
   double height = 300;
   double x_min = 0, x_max = 1, y_min = 0, y_max = 1;  ///< data range (fit_range widens it from data)
 };
@@ -48,7 +48,8 @@ class SvgChart {
  public:
   explicit SvgChart(ChartFrame frame) : frame_(std::move(frame)) {}
 
-  /// A polyline through the points, broken at gaps. `dashed` draws it dashed.
+  /// A polyline through the points, broken at gaps. `dashed` draws it dashed. An empty label adds no legend entry
+  /// (further members of one family share the first one's entry); the same holds for every add_* below.
   void add_line(const std::vector<Point>& points, const std::string& colour, const std::string& label,
                 bool dashed = false, double opacity = 1.0);
   /// One dot per finite point (drawn as zero-length round-capped segments: small in the file).
@@ -71,14 +72,19 @@ class SvgChart {
  private:
   double px(double x) const;
   double py(double y) const;
+  long tx(double x) const;  // series coordinates, in tenths of a user unit
+  long ty(double y) const;
+  bool usable(const Point& p) const;
   std::string path_of(const std::vector<Point>& points, bool dots) const;
-  void add_legend(const std::string& colour, const std::string& label, const std::string& kind);
+  static constexpr double series_scale = 10;
+  void add_legend(const std::string& colour, const std::string& label, const std::string& kind, double opacity = 1);
 
   ChartFrame frame_;
   std::string body_;
   std::string references_;
   struct LegendItem {
     std::string colour, label, kind;
+    double opacity = 1;
   };
   std::vector<LegendItem> legend_;
   std::size_t series_count_ = 0;
