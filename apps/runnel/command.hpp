@@ -19,5 +19,7 @@ struct Command {
 
 Command add_inspect_command(CLI::App& root);
 Command add_init_command(CLI::App& root);
+Command add_run_command(CLI::App& root);
+Command add_report_command(CLI::App& root);
 
 }  // namespace runnel_app

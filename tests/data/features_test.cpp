@@ -177,3 +177,28 @@ TEST(Windows, SimulationWindowsUseInputsUpToTheStepOnly) {
 }
 
 }  // namespace libseq::data
+
+namespace libseq::data {
+
+TEST(Windows, IssueEveryAlignsTheFirstLeadToMidnight) {
+  // Hourly panel from 2000-06-05T00:00Z, 72 steps; day-ahead windows issued once a day.
+  std::vector<SiteInfo> sites{{"F1", "", 0, 0, 0, {}}};
+  std::vector<VariableInfo> variables{{"load", "MW", "", ""}};
+  Panel panel(TimeAxis(parse_iso8601("2000-06-05"), 3600, 72), sites, variables);
+  for (std::size_t t = 0; t < 72; ++t) panel.at(0, t, 0) = static_cast<float>(t);
+  FeatureOptions options;
+  options.target.assign("load");
+  const FeaturePlan plan = FeaturePlan::fit(panel, options, parse_period("2000-06-05..2000-06-07", "fit"));
+  const FeatureTable table(panel, plan);
+  WindowOptions w;
+  w.lookback_steps = 12;
+  w.horizon_steps = 24;
+  w.issue_every = 24;
+  const auto windows = make_windows(table, w, {0, 72}, true);
+  // Issues at 23:00 on day 1 (step 23) and day 2 (step 47); day 3 has no full day ahead.
+  ASSERT_EQ(windows.size(), 2u);
+  EXPECT_EQ(windows[0].issue, 23u);
+  EXPECT_EQ(windows[1].issue, 47u);
+}
+
+}  // namespace libseq::data

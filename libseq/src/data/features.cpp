@@ -300,7 +300,11 @@ FeaturePlan FeaturePlan::restore(const Panel& panel, const FeatureOptions& optio
 }
 
 FeatureTable::FeatureTable(const Panel& panel, const FeaturePlan& plan)
-    : plan_(plan), sites_(panel.site_count()), steps_(panel.time_count()) {
+    : plan_(plan),
+      start_(panel.axis().start()),
+      step_(panel.axis().step_seconds()),
+      sites_(panel.site_count()),
+      steps_(panel.time_count()) {
   const auto& options = plan.options_;
   dynamic_ = options.dynamic_inputs.size();
   for (auto encoding : options.calendar) dynamic_ += calendar_columns(encoding);

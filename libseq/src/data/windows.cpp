@@ -23,6 +23,7 @@ void WindowOptions::validate() const {
     problems.push_back("windows.horizon: must be 1 in simulation mode (the simulated step itself), got " +
                        std::to_string(horizon_steps));
   }
+  if (issue_every < 1) problems.push_back("windows.issue_every: must be at least 1 step");
   if (mode == WindowMode::simulation && future_inputs_known) {
     problems.push_back("windows.future_inputs_known: has no meaning in simulation mode");
   }
@@ -65,6 +66,11 @@ std::vector<Window> make_windows(const FeatureTable& table, const WindowOptions&
       const std::size_t last_target = target_step(options, issue, leads - 1);
       if (last_target >= steps) break;
       if (!targets.contains(first_target) || !targets.contains(last_target)) continue;
+      if (options.issue_every > 1) {
+        const std::int64_t period = static_cast<std::int64_t>(options.issue_every) * table.step_seconds();
+        const std::int64_t t = table.start_seconds() + static_cast<std::int64_t>(first_target) * table.step_seconds();
+        if (((t % period) + period) % period != 0) continue;
+      }
       if (require_target) {
         bool any = false;
         for (std::size_t k = 0; k < leads && !any; ++k) {

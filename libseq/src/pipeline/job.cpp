@@ -124,6 +124,11 @@ void read_job(ConfigReader& r, JobConfig& job) {
              "The dynamic inputs of the target steps are known at issue time (a weather forecast, or a "
              "perfect-forecast hindcast).");
 
+  job.windows.issue_every = static_cast<std::size_t>(r.integer(
+      "windows", "issue_every", 1, 1, 100000, "steps",
+      "One forecast every so many steps, aligned so that the first lead falls on a multiple of it since "
+      "1970-01-01T00:00Z (24 on hourly data: day-ahead forecasts issued at midnight UTC)."));
+
   r.section("periods", "Periods as START..END (ISO 8601; a date-only END includes the whole day).");
   const std::string fit = r.required_text("periods", "fit", "Period the networks and baselines are fitted on.",
                                           "\"2008-01-01..2014-12-31\"");
@@ -443,7 +448,7 @@ horizon = 1                      # days ahead
 fit = "2008-01-01..2015-12-31"
 validation = "2016-01-01..2017-12-31"
 calibration = "2016-01-01..2017-12-31"
-test = "2018-01-01..2020-12-31"
+test = "2018-01-01..2022-12-31"
 
 [network]
 cell = "lstm"
@@ -491,13 +496,16 @@ variable = "load"
 [inputs]
 dynamic = ["air_temperature"]
 calendar = ["hour_of_day", "day_of_week", "weekend", "holiday"]
-holidays = ["2022-01-01", "2022-12-25", "2023-01-01", "2023-12-25"]
+# public holidays of the (invented) Serrain calendar, see data-samples/README.md
+holidays = ["2022-01-01", "2022-03-14", "2022-04-25", "2022-06-17", "2022-10-03", "2022-12-21", "2022-12-31",
+            "2023-01-01", "2023-03-14", "2023-04-24", "2023-06-16", "2023-10-02", "2023-12-21", "2023-12-31"]
 
 [windows]
 mode = "forecast"
 lookback = 72                    # hours of history
 horizon = 24                     # a day ahead
 future_inputs_known = true       # temperature forecasts for the next day are available
+issue_every = 24                 # one day-ahead forecast per day, issued at midnight UTC
 
 [periods]
 fit = "2022-01-01..2023-06-30"

@@ -132,9 +132,14 @@ class FeatureTable {
   double unscale_target(std::size_t site, double scaled) const;
 
   const FeaturePlan& plan() const { return plan_; }
+  /// Time of step 0 and the step of the panel the table was built from.
+  UtcSeconds start_seconds() const { return start_; }
+  std::int64_t step_seconds() const { return step_; }
 
  private:
   FeaturePlan plan_;
+  UtcSeconds start_ = 0;
+  std::int64_t step_ = 86400;
   std::size_t sites_ = 0, steps_ = 0, dynamic_ = 0, static_ = 0;
   std::vector<float> dynamic_values_;  // sites × steps × (dynamic inputs + calendar columns)
   std::vector<float> static_values_;   // sites × statics

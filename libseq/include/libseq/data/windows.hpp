@@ -30,6 +30,10 @@ struct WindowOptions {
   /// Forecast mode: the dynamic inputs of the target steps are known at issue time (e.g. a weather forecast, or
   /// observed forcings in a "perfect forecast" hindcast). Calendar columns of the target steps are always known.
   bool future_inputs_known = false;
+  /// Keep one sample every `issue_every` steps, aligned so that the first lead falls on a whole multiple of
+  /// issue_every steps since 1970-01-01T00:00:00Z (e.g. 24 on hourly data: day-ahead forecasts issued at midnight
+  /// UTC). 1 keeps every step.
+  std::size_t issue_every = 1;
 
   /// @throws libseq::ConfigError listing every broken rule.
   void validate() const;

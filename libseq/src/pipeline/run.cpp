@@ -1,0 +1,737 @@
+#include "libseq/pipeline/run.hpp"
+
+#include <omp.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <map>
+#include <set>
+#include <sstream>
+
+#include "libseq/baselines/climatology.hpp"
+#include "libseq/baselines/exp_smoothing.hpp"
+#include "libseq/baselines/intervals.hpp"
+#include "libseq/baselines/local_level.hpp"
+#include "libseq/baselines/persistence.hpp"
+#include "libseq/baselines/ridge_arx.hpp"
+#include "libseq/baselines/seasonal_naive.hpp"
+#include "libseq/caution.hpp"
+#include "libseq/error.hpp"
+#include "libseq/io/reader.hpp"
+#include "libseq/metrics/deterministic.hpp"
+#include "libseq/metrics/scorecard.hpp"
+#include "libseq/pipeline/report.hpp"
+#include "libseq/uncertainty/conformal.hpp"
+#include "libseq/uncertainty/ensemble.hpp"
+#include "libseq/version.hpp"
+#include "run_impl.hpp"
+
+namespace libseq::pipeline {
+
+namespace {
+
+using Clock = std::chrono::steady_clock;
+
+// ---------------------------------------------------------------------------------------------------------------
+// Reading
+// ---------------------------------------------------------------------------------------------------------------
+
+// Reads every file and joins their sites. Files must share the time axis and the variables read.
+data::Panel load_panel(const JobConfig& job, std::vector<std::string>& warnings) {
+  io::ReadOptions read;
+  read.variables.push_back(job.features.target);
+  for (const auto& v : job.features.dynamic_inputs) read.variables.push_back(v);
+  read.sites = job.sites;
+  for (const auto& [variable, units] : job.units) read.target_units[variable] = units;
+  std::optional<data::Panel> joined;
+  for (const auto& file : job.files) {
+    io::ReadResult result = io::read_panel(file, read);
+    for (auto& w : result.warnings) warnings.push_back(std::move(w));
+    if (!joined) {
+      joined = std::move(result.panel);
+      continue;
+    }
+    const data::Panel& next = result.panel;
+    if (!(next.axis() == joined->axis())) {
+      throw DataError(file.string() + ": time axis " + data::format_iso8601(next.axis().start()) + " step " +
+                      next.axis().describe_step() + " differs from the first file's; files of one job must share "
+                      "the time axis");
+    }
+    if (next.variable_count() != joined->variable_count()) {
+      throw DataError(file.string() + ": has other variables than the first file");
+    }
+    std::vector<data::SiteInfo> sites = joined->sites();
+    for (const auto& s : next.sites()) {
+      if (joined->find_site(s.id)) throw DataError(file.string() + ": site '" + s.id + "' is also in an earlier file");
+      sites.push_back(s);
+    }
+    data::Panel merged(joined->axis(), sites, joined->variables());
+    for (std::size_t s = 0; s < joined->site_count(); ++s) {
+      std::copy(joined->site_values(s).begin(), joined->site_values(s).end(), merged.site_values(s).begin());
+    }
+    for (std::size_t s = 0; s < next.site_count(); ++s) {
+      std::copy(next.site_values(s).begin(), next.site_values(s).end(),
+                merged.site_values(joined->site_count() + s).begin());
+    }
+    for (const auto& src : joined->sources()) merged.add_source(src);
+    for (const auto& src : next.sources()) merged.add_source(src);
+    joined = std::move(merged);
+  }
+  if (!joined || joined->site_count() == 0) throw DataError("no site with data in the job's files");
+  if (joined->sources().empty()) {
+    for (const auto& f : job.files) joined->add_source(f.string());
+  }
+  return std::move(*joined);
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Per-site hindcast assembly
+// ---------------------------------------------------------------------------------------------------------------
+
+struct SiteCases {
+  std::vector<std::size_t> issues;  // issue steps (forecast) or simulated steps (simulation), increasing
+  std::vector<double> observed;     // issues × leads, target units
+};
+
+std::size_t target_step(const data::WindowOptions& w, std::size_t issue, std::size_t lead) {
+  return w.mode == data::WindowMode::forecast ? issue + 1 + lead : issue;
+}
+
+io::ForecastBlock make_block(const std::string& method, std::size_t n, std::size_t leads,
+                             const std::vector<double>& levels) {
+  io::ForecastBlock b;
+  b.method = method;
+  b.mean.assign(n * leads, NAN);
+  b.median.assign(n * leads, NAN);
+  b.quantile_levels = levels;
+  b.quantiles.assign(n * leads * levels.size(), NAN);
+  return b;
+}
+
+// Sorts each case's quantiles so that calibration never leaves them crossed (documented in docs/methods.md).
+void repair_crossing(std::vector<double>& quantiles, std::size_t width) {
+  for (std::size_t c = 0; c + width <= quantiles.size(); c += width) {
+    std::sort(quantiles.begin() + static_cast<std::ptrdiff_t>(c), quantiles.begin() + static_cast<std::ptrdiff_t>(c + width),
+              [](double a, double b) { return std::isnan(b) ? !std::isnan(a) : a < b; });
+  }
+}
+
+std::size_t level_position(const std::vector<double>& levels, double level) {
+  for (std::size_t i = 0; i < levels.size(); ++i) {
+    if (std::abs(levels[i] - level) < 1e-9) return i;
+  }
+  throw DataError("internal: quantile level " + std::to_string(level) + " is not among the reported levels");
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Baselines
+// ---------------------------------------------------------------------------------------------------------------
+
+std::unique_ptr<baselines::Forecaster> make_baseline(baselines::BaselineKind kind, const JobConfig& job,
+                                                     std::int64_t step_seconds) {
+  const bool sub_daily = step_seconds < 86400;
+  const std::size_t day = sub_daily ? static_cast<std::size_t>(86400 / step_seconds) : 1;
+  const std::size_t season = job.seasonal_period ? job.seasonal_period : (sub_daily ? day : 365);
+  switch (kind) {
+    case baselines::BaselineKind::persistence:
+      return std::make_unique<baselines::Persistence>();
+    case baselines::BaselineKind::seasonal_naive: {
+      baselines::SeasonalNaiveOptions o;
+      o.period_steps = season;
+      return std::make_unique<baselines::SeasonalNaive>(o);
+    }
+    case baselines::BaselineKind::climatology:
+      return std::make_unique<baselines::Climatology>(job.climatology);
+    case baselines::BaselineKind::ridge_arx:
+      return std::make_unique<baselines::RidgeArx>(job.ridge);
+    case baselines::BaselineKind::exp_smoothing: {
+      baselines::ExpSmoothingOptions o;
+      o.model = job.smoothing;
+      o.period_steps = season;
+      o.second_period_steps =
+          job.second_seasonal_period ? job.second_seasonal_period : (sub_daily ? 7 * day : 0);
+      return std::make_unique<baselines::ExpSmoothing>(o);
+    }
+    case baselines::BaselineKind::local_level:
+      return std::make_unique<baselines::LocalLevel>();
+  }
+  throw ConfigError("baselines.methods: unknown baseline");
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Scoring
+// ---------------------------------------------------------------------------------------------------------------
+
+std::string interval_suffix(double coverage) {
+  char buffer[16];
+  std::snprintf(buffer, sizeof buffer, "_%g", std::round(coverage * 1000) / 10);
+  std::string s = buffer;
+  std::replace(s.begin(), s.end(), '.', 'p');
+  return s;
+}
+
+bool is_interval_metric(metrics::Metric m) {
+  return m == metrics::Metric::interval_score || m == metrics::Metric::coverage || m == metrics::Metric::mean_width;
+}
+
+void add_rows(const metrics::Scorecard& card, bool interval_only, double coverage, std::vector<io::MetricRow>& rows) {
+  for (const auto& record : card.records()) {
+    for (const auto& [metric, value] : record.values) {
+      if (interval_only != is_interval_metric(metric)) continue;
+      io::MetricRow row;
+      row.site = record.site;
+      row.method = record.method;
+      row.lead = record.lead;
+      row.metric = metrics::to_string(metric) + (interval_only ? interval_suffix(coverage) : "");
+      row.value = value.value;
+      row.used = value.counts.used;
+      row.skipped = value.counts.skipped();
+      auto ci = record.intervals.find(metric);
+      if (ci != record.intervals.end()) {
+        row.ci_low = ci->second.lower;
+        row.ci_high = ci->second.upper;
+      }
+      rows.push_back(row);
+    }
+  }
+}
+
+std::vector<io::MetricRow> score_results(const io::RunResults& results, const JobConfig& job,
+                                         const std::vector<double>& mase_scales) {
+  std::vector<metrics::ScoreInput> inputs;
+  const std::size_t leads = results.leads.size();
+  for (std::size_t s = 0; s < results.sites.size(); ++s) {
+    const auto& site = results.sites[s];
+    const std::size_t n = site.issue_times.size();
+    for (const auto& block : site.methods) {
+      for (std::size_t k = 0; k < leads; ++k) {
+        metrics::ScoreInput in;
+        in.site = site.site.id;
+        in.method = block.method;
+        in.lead = results.leads[k];
+        auto& c = in.cases;
+        c.form = block.quantile_levels.empty() ? metrics::PredictiveForm::none : metrics::PredictiveForm::quantiles;
+        c.levels = block.quantile_levels;
+        for (std::size_t i = 0; i < n; ++i) {
+          c.observed.push_back(site.observed[i * leads + k]);
+          c.point.push_back(block.mean[i * leads + k]);
+          for (std::size_t q = 0; q < block.quantile_levels.size(); ++q) {
+            c.quantiles.push_back(block.quantiles[(i * leads + k) * block.quantile_levels.size() + q]);
+          }
+          if (std::isfinite(mase_scales[s])) c.mase_scales.push_back(mase_scales[s]);
+        }
+        if (c.mase_scales.size() != c.observed.size()) c.mase_scales.clear();
+        inputs.push_back(std::move(in));
+      }
+    }
+  }
+  metrics::ScoreOptions options;
+  for (const auto& name : job.metrics) options.metrics.push_back(metrics::parse_metric(name, "scoring.metrics"));
+  if (job.bootstrap_resamples > 0) {
+    metrics::BootstrapOptions b;
+    b.resamples = job.bootstrap_resamples;
+    b.block_length = std::max<std::size_t>(1, job.windows.lookback_steps / 2);
+    b.seed = job.seed;
+    options.bootstrap = b;
+  }
+  std::vector<io::MetricRow> rows;
+  for (std::size_t i = 0; i < job.intervals.size(); ++i) {
+    options.interval_coverage = job.intervals[i];
+    // MASE needs the same scale for every case of a pooled set; pooling over sites mixes scales, which the
+    // scorecard refuses, so pooled-over-sites records drop MASE.
+    const bool first = i == 0;
+    for (auto scorer : {&metrics::score_per_site_and_lead, &metrics::score_per_site}) {
+      const auto card = scorer(inputs, options);
+      if (first) add_rows(card, false, 0, rows);
+      add_rows(card, true, job.intervals[i], rows);
+    }
+    std::vector<metrics::ScoreInput> without_mase = inputs;
+    for (auto& in : without_mase) in.cases.mase_scales.clear();
+    for (auto scorer : {&metrics::score_per_lead, &metrics::score_pooled}) {
+      const auto card = scorer(without_mase, options);
+      if (first) add_rows(card, false, 0, rows);
+      add_rows(card, true, job.intervals[i], rows);
+    }
+  }
+  return rows;
+}
+
+std::string now_iso() {
+  const auto seconds = std::chrono::duration_cast<std::chrono::seconds>(
+                           std::chrono::system_clock::now().time_since_epoch())
+                           .count();
+  return data::format_iso8601(seconds);
+}
+
+}  // namespace
+
+// ---------------------------------------------------------------------------------------------------------------
+// The job
+// ---------------------------------------------------------------------------------------------------------------
+
+RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
+  const auto started = Clock::now();
+  JobConfig job = job_in;
+  if (run_options.seed) {
+    job.seed = *run_options.seed;
+    job.training.seed = job.seed;
+    job.resampling.seed = job.seed;
+  }
+  const int threads = run_options.threads.value_or(job.threads) > 0 ? run_options.threads.value_or(job.threads)
+                                                                     : omp_get_num_procs();
+  omp_set_num_threads(threads);
+  auto report = [&](const std::string& stage, const std::string& detail, std::size_t done, std::size_t total) {
+    if (!run_options.progress) return;
+    run_options.progress({stage, detail, done, total,
+                          std::chrono::duration<double>(Clock::now() - started).count()});
+  };
+
+  io::RunResults results;
+  report("reading", "", 0, job.files.size());
+  data::Panel panel = load_panel(job, results.warnings);
+  report("reading", "", job.files.size(), job.files.size());
+
+  // Periods against the data, and inputs against the files: all problems at once.
+  std::vector<std::string> problems = job.periods.problems(panel.axis());
+  if (!problems.empty()) {
+    std::string message = job.job_path.string() + ": " + std::to_string(problems.size()) +
+                          " problem(s) with the periods and the data:";
+    for (const auto& p : problems) message += "\n  " + p;
+    throw ConfigError(message);
+  }
+  const data::FeaturePlan plan = data::FeaturePlan::fit(panel, job.features, job.periods.fit);
+  const data::FeatureTable table(panel, plan);
+  const auto& axis = panel.axis();
+  const data::IndexRange fit_range = data::index_range(axis, job.periods.fit);
+  const data::IndexRange validation_range =
+      job.periods.validation ? data::index_range(axis, *job.periods.validation) : data::IndexRange{};
+  const data::IndexRange calibration_range =
+      job.periods.calibration ? data::index_range(axis, *job.periods.calibration) : data::IndexRange{};
+  const data::IndexRange test_range = data::index_range(axis, *job.periods.test);
+  const std::size_t leads = job.windows.lead_count();
+  const std::size_t level_count = job.quantiles.size();
+
+  // Results skeleton: one SiteResults per site with the test cases.
+  const std::size_t site_count = panel.site_count();
+  const auto all_test = data::make_windows(table, job.windows, test_range, false);
+  std::vector<SiteCases> cases(site_count);
+  for (const auto& w : all_test) cases[w.site].issues.push_back(w.issue);
+  results.title = job.title;
+  results.summary = job.summary;
+  results.mode = data::to_string(job.windows.mode);
+  const auto& target_info = panel.variables()[plan.target_variable()];
+  results.target_variable = target_info.name;
+  results.target_units = target_info.units;
+  results.target_standard_name = target_info.standard_name;
+  results.step_seconds = axis.step_seconds();
+  for (std::size_t k = 0; k < leads; ++k) {
+    results.leads.push_back(job.windows.mode == data::WindowMode::forecast ? static_cast<std::int64_t>(k + 1) : 0);
+  }
+  results.test_period = job.periods.test->to_string();
+  for (std::size_t s = 0; s < site_count; ++s) {
+    io::SiteResults site;
+    site.site = panel.sites()[s];
+    for (std::size_t issue : cases[s].issues) {
+      site.issue_times.push_back(axis.time_at(issue));
+      for (std::size_t k = 0; k < leads; ++k) {
+        const std::size_t step = target_step(job.windows, issue, k);
+        site.observed.push_back(table.observed_target(s, step));
+        cases[s].observed.push_back(table.observed_target(s, step));
+      }
+    }
+    results.sites.push_back(std::move(site));
+  }
+
+  // ---- Networks: one ensemble per model -------------------------------------------------------------------------
+  std::vector<std::vector<std::size_t>> models;  // sites of each model
+  if (job.scope == ModelScope::across_sites) {
+    models.emplace_back();
+    for (std::size_t s = 0; s < site_count; ++s) models.back().push_back(s);
+  } else {
+    for (std::size_t s = 0; s < site_count; ++s) models.push_back({s});
+  }
+  uncertainty::EnsembleOptions ensemble_options;
+  ensemble_options.members = job.members;
+  ensemble_options.resampling = job.resampling;
+  ensemble_options.mc_passes = job.mc_passes;
+  ensemble_options.network = job.network;
+  ensemble_options.network.input_size = data::batch_input_size(plan, job.windows);
+  ensemble_options.network.static_size = plan.static_feature_count();
+  ensemble_options.network.horizon = leads;
+  ensemble_options.training = job.training;
+  ensemble_options.validate();
+
+  auto select = [&](const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
+    std::vector<data::Window> out;
+    std::set<std::size_t> wanted(sites.begin(), sites.end());
+    for (const auto& w : all) {
+      if (wanted.count(w.site)) out.push_back(w);
+    }
+    return out;
+  };
+  const auto all_train = data::make_windows(table, job.windows, fit_range, true);
+  const auto all_validation = validation_range.empty() ? std::vector<data::Window>{}
+                                                       : data::make_windows(table, job.windows, validation_range, true);
+  const auto all_calibration = calibration_range.empty()
+                                   ? std::vector<data::Window>{}
+                                   : data::make_windows(table, job.windows, calibration_range, true);
+  std::vector<io::ForecastBlock> network_blocks;
+  for (std::size_t s = 0; s < site_count; ++s) {
+    network_blocks.push_back(make_block(network_method_name, cases[s].issues.size(), leads, job.quantiles));
+  }
+  RunSummary summary;
+  for (std::size_t m = 0; m < models.size(); ++m) {
+    const auto& model_sites = models[m];
+    const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
+    report("training", "model " + model_name, m, models.size());
+    detail::WindowSource training(table, job.windows, select(all_train, model_sites));
+    if (training.size() == 0) {
+      results.warnings.push_back("model " + model_name + ": no training window with an observed target in the fit "
+                                 "period; the network is skipped there");
+      continue;
+    }
+    std::vector<std::size_t> window_site;
+    std::map<std::size_t, std::size_t> local_site;
+    for (std::size_t s : model_sites) local_site.emplace(s, local_site.size());
+    for (const auto& w : training.windows()) window_site.push_back(local_site.at(w.site));
+    detail::WindowSource validation(table, job.windows, select(all_validation, model_sites));
+    auto model_options = ensemble_options;
+    model_options.resampling.seed = uncertainty::member_seed(job.seed, 1000003 * (m + 1));
+    const uncertainty::Ensemble ensemble = uncertainty::Ensemble::train(
+        model_options, training, window_site, model_sites.size(), validation.size() ? &validation : nullptr);
+    ++summary.models_trained;
+    for (std::size_t k = 0; k < ensemble.members().size(); ++k) {
+      const auto& member = ensemble.members()[k];
+      const auto& ts = member.summary;
+      io::TrainingRecord record;
+      record.model = model_name;
+      record.member = static_cast<std::uint32_t>(k);
+      record.seed = member.seed;
+      record.termination = train::to_string(ts.termination);
+      record.epochs = static_cast<std::uint32_t>(ts.epochs_run);
+      record.best_epoch = static_cast<std::uint32_t>(ts.best_epoch);
+      record.best_validation_loss = ts.monitored_validation && ts.has_best ? ts.best_loss : NAN;
+      record.train_loss = ts.train_loss;
+      record.validation_loss = ts.validation_loss;
+      record.gradient_norm = ts.gradient_norm_mean;
+      record.clipped_steps = ts.clipped_total;
+      record.total_steps = ts.updates;
+      for (std::size_t i = 0; i < ts.final_gradient.lags.size(); ++i) {
+        record.diagnostic_lags.push_back(static_cast<std::int64_t>(ts.final_gradient.lags[i]));
+        record.diagnostic_gradient_norms.push_back(ts.final_gradient.input_gradient_norm[i]);
+      }
+      record.seconds = ts.wall_seconds;
+      if (ts.termination == train::TerminationReason::diverged) {
+        results.warnings.push_back("model " + model_name + ", member " + std::to_string(k) +
+                                   ": training diverged (" + ts.termination_detail + "); member left out");
+      }
+      results.training.push_back(std::move(record));
+      results.provenance.seeds.push_back(member.seed);
+    }
+
+    // Test-period predictions.
+    detail::WindowSource test(table, job.windows, select(all_test, model_sites));
+    if (test.size() == 0) continue;
+    const auto test_members = ensemble.predict(test, job.seed + 17);
+    auto test_dist = detail::to_target_units(test_members, table, test.windows(), leads, job.quantiles,
+                                             job.keep_members);
+
+    // Calibration of every central interval on the calibration period (CQR on the interval bounds).
+    if (job.calibration != CalibrationMethod::none) {
+      detail::WindowSource calibration(table, job.windows, select(all_calibration, model_sites));
+      if (calibration.size() == 0) {
+        results.warnings.push_back("model " + model_name + ": no calibration window with an observed target; "
+                                   "intervals left uncalibrated");
+      } else {
+        const auto cal_members = ensemble.predict(calibration, job.seed + 29);
+        const auto cal_dist =
+            detail::to_target_units(cal_members, table, calibration.windows(), leads, job.quantiles, false);
+        std::vector<double> observed, cal_lead;
+        std::vector<std::size_t> lead_of_case;
+        for (std::size_t c = 0; c < cal_dist.cases; ++c) {
+          const auto& w = calibration.windows()[c / leads];
+          observed.push_back(table.observed_target(w.site, target_step(job.windows, w.issue, c % leads)));
+          lead_of_case.push_back(c % leads);
+        }
+        for (double coverage : job.intervals) {
+          const std::size_t lo = level_position(job.quantiles, (1 - coverage) / 2);
+          const std::size_t hi = level_position(job.quantiles, (1 + coverage) / 2);
+          std::vector<double> lower, upper;
+          for (std::size_t c = 0; c < cal_dist.cases; ++c) {
+            lower.push_back(cal_dist.quantiles[c * level_count + lo]);
+            upper.push_back(cal_dist.quantiles[c * level_count + hi]);
+          }
+          uncertainty::CalibrationSet set;
+          set.observed = observed;
+          set.lower = lower;
+          set.upper = upper;
+          set.lead = lead_of_case;
+          uncertainty::ConformalOptions conformal;
+          conformal.score = uncertainty::ConformalScore::quantile_pair;
+          conformal.miscoverage = 1 - coverage;
+          conformal.per_lead = true;
+          const auto calibrator = uncertainty::Calibrator::fit(set, conformal);
+          if (job.calibration == CalibrationMethod::split_conformal) {
+            for (std::size_t c = 0; c < test_dist.cases; ++c) {
+              const auto interval = calibrator.quantile_interval(test_dist.quantiles[c * level_count + lo],
+                                                                 test_dist.quantiles[c * level_count + hi], c % leads);
+              test_dist.quantiles[c * level_count + lo] = interval.lower;
+              test_dist.quantiles[c * level_count + hi] = interval.upper;
+            }
+          } else {
+            // Adaptive conformal inference (Gibbs & Candès 2021) per site and lead, through the test period in
+            // issue order, started from the calibration scores of that lead. An outcome is known `lead` steps
+            // after the issue; the update uses it then, so no interval sees its own observation.
+            for (std::size_t k = 0; k < leads; ++k) {
+              std::vector<double> scores;
+              for (std::size_t c = k; c < cal_dist.cases; c += leads) {
+                scores.push_back(uncertainty::quantile_pair_score(lower[c], upper[c], observed[c]));
+              }
+              uncertainty::AdaptiveOptions adaptive;
+              adaptive.score = uncertainty::ConformalScore::quantile_pair;
+              adaptive.miscoverage = 1 - coverage;
+              adaptive.step_size = job.adaptive_step;
+              for (std::size_t s : model_sites) {
+                uncertainty::AdaptiveConformal aci(adaptive, scores);
+                struct Pending {
+                  std::size_t due;  // step at which the observation is known
+                  double lower, upper, observed;
+                };
+                std::vector<Pending> pending;
+                for (std::size_t c = k; c < test_dist.cases; c += leads) {
+                  const auto& w = test.windows()[c / leads];
+                  if (w.site != s) continue;
+                  // Apply outcomes that are known by this issue time.
+                  std::erase_if(pending, [&](const Pending& p) {
+                    if (p.due > w.issue) return false;
+                    if (std::isfinite(p.observed)) {
+                      aci.update(p.observed >= p.lower && p.observed <= p.upper,
+                                 uncertainty::quantile_pair_score(p.lower, p.upper, p.observed));
+                    }
+                    return true;
+                  });
+                  const double raw_lo = test_dist.quantiles[c * level_count + lo];
+                  const double raw_hi = test_dist.quantiles[c * level_count + hi];
+                  const auto interval = aci.quantile_interval(raw_lo, raw_hi);
+                  test_dist.quantiles[c * level_count + lo] = interval.lower;
+                  test_dist.quantiles[c * level_count + hi] = interval.upper;
+                  const std::size_t step = target_step(job.windows, w.issue, k);
+                  pending.push_back({step, raw_lo, raw_hi, table.observed_target(s, step)});
+                }
+              }
+            }
+          }
+        }
+        repair_crossing(test_dist.quantiles, level_count);
+      }
+    }
+
+    // Into the per-site blocks (test windows are ordered by site, then issue, like cases[s].issues).
+    std::vector<std::size_t> position(site_count, 0);
+    for (std::size_t i = 0; i < test.windows().size(); ++i) {
+      const auto& w = test.windows()[i];
+      const std::size_t row = position[w.site]++;
+      auto& block = network_blocks[w.site];
+      for (std::size_t k = 0; k < leads; ++k) {
+        const std::size_t c = i * leads + k;
+        block.mean[row * leads + k] = static_cast<float>(test_dist.mean[c]);
+        block.median[row * leads + k] = static_cast<float>(test_dist.median[c]);
+        for (std::size_t q = 0; q < level_count; ++q) {
+          block.quantiles[(row * leads + k) * level_count + q] =
+              static_cast<float>(test_dist.quantiles[c * level_count + q]);
+        }
+      }
+      if (test_dist.member_count > 0) {
+        block.member_count = test_dist.member_count;
+        block.members.resize(cases[w.site].issues.size() * leads * block.member_count);
+        for (std::size_t k = 0; k < leads; ++k) {
+          for (std::size_t j = 0; j < block.member_count; ++j) {
+            block.members[(row * leads + k) * block.member_count + j] =
+                static_cast<float>(test_dist.members[(i * leads + k) * block.member_count + j]);
+          }
+        }
+      }
+    }
+  }
+  report("training", "", models.size(), models.size());
+  for (std::size_t s = 0; s < site_count; ++s) results.sites[s].methods.push_back(std::move(network_blocks[s]));
+
+  // ---- Baselines, per site, on the same cases -------------------------------------------------------------------
+  std::vector<double> mase_scales(site_count, NAN);
+  for (std::size_t s = 0; s < site_count; ++s) {
+    report("baselines", panel.sites()[s].id, s, site_count);
+    std::vector<double> target(axis.length());
+    for (std::size_t t = 0; t < axis.length(); ++t) target[t] = table.observed_target(s, t);
+    std::vector<std::vector<double>> inputs;
+    for (const auto& name : job.features.dynamic_inputs) {
+      const std::size_t v = panel.require_variable(name, "job inputs");
+      std::vector<double> series(axis.length());
+      for (std::size_t t = 0; t < axis.length(); ++t) series[t] = panel.at(s, t, v);
+      inputs.push_back(std::move(series));
+    }
+    baselines::SeriesSet series;
+    series.target = target;
+    for (const auto& in : inputs) series.inputs.emplace_back(in);
+    series.axis = axis;
+    // MASE scale: in-sample one-step naive error on the fit period (Hyndman & Koehler 2006).
+    mase_scales[s] = metrics::naive_mae_scale(
+        std::span<const double>(target).subspan(fit_range.begin, fit_range.size()), 1);
+    const auto& issues = cases[s].issues;
+    if (issues.empty()) continue;
+    // Simulation of step t is the lead-1 forecast issued at t − 1.
+    std::vector<std::size_t> baseline_issues;
+    for (std::size_t issue : issues) {
+      baseline_issues.push_back(job.windows.mode == data::WindowMode::forecast ? issue : issue - 1);
+    }
+    const baselines::IndexRange fit{fit_range.begin, fit_range.end};
+    const baselines::IndexRange validation =
+        validation_range.empty() ? fit : baselines::IndexRange{validation_range.begin, validation_range.end};
+    const baselines::IndexRange calibration =
+        calibration_range.empty() ? fit : baselines::IndexRange{calibration_range.begin, calibration_range.end};
+    for (auto kind : job.baselines) {
+      const std::string name = baselines::to_string(kind);
+      try {
+        auto forecaster = make_baseline(kind, job, axis.step_seconds());
+        forecaster->fit(series, fit, validation);
+        const auto points = forecaster->forecast(series, baseline_issues, leads);
+        const auto quantiles =
+            baselines::forecast_quantiles(*forecaster, series, baseline_issues, leads, job.quantiles, calibration);
+        io::ForecastBlock block = make_block(name, issues.size(), leads, job.quantiles);
+        const std::size_t median = static_cast<std::size_t>(
+            std::find_if(job.quantiles.begin(), job.quantiles.end(), [](double q) { return std::abs(q - 0.5) < 1e-9; }) -
+            job.quantiles.begin());
+        for (std::size_t i = 0; i < issues.size(); ++i) {
+          for (std::size_t k = 0; k < leads; ++k) {
+            block.mean[i * leads + k] = static_cast<float>(points.value(i, k));
+            block.median[i * leads + k] = static_cast<float>(median < level_count ? quantiles.value(i, k, median)
+                                                                                  : points.value(i, k));
+            for (std::size_t q = 0; q < level_count; ++q) {
+              block.quantiles[(i * leads + k) * level_count + q] = static_cast<float>(quantiles.value(i, k, q));
+            }
+          }
+        }
+        results.sites[s].methods.push_back(std::move(block));
+      } catch (const Error& e) {
+        results.warnings.push_back("site " + panel.sites()[s].id + ", baseline " + name + ": " + e.what() +
+                                   "; left out at this site");
+      }
+    }
+  }
+  report("baselines", "", site_count, site_count);
+
+  // ---- Scoring ---------------------------------------------------------------------------------------------------
+  report("scoring", "", 0, 1);
+  results.metrics = score_results(results, job, mase_scales);
+  report("scoring", "", 1, 1);
+
+  // ---- Provenance and outputs ------------------------------------------------------------------------------------
+  auto& p = results.provenance;
+  p.job_text = job.job_text;
+  p.job_path = job.job_path.string();
+  p.library_version = version();
+  p.git_commit = git_commit();
+  p.created = now_iso();
+  p.threads = threads;
+  for (const auto& f : job.files) p.inputs.push_back({f.string(), io::sha256_of_file(f)});
+  p.wall_seconds = std::chrono::duration<double>(Clock::now() - started).count();
+
+  std::filesystem::create_directories(job.output_directory);
+  const std::size_t output_count = job.write_hdf5 + job.write_netcdf + job.write_geojson + job.write_report;
+  std::size_t written = 0;
+  auto output = [&](const char* name, auto&& write) {
+    const auto path = job.output_directory / name;
+    report("writing", name, written, output_count);
+    write(path);
+    summary.outputs.push_back(path);
+    ++written;
+  };
+  if (job.write_hdf5) output("results.h5", [&](const auto& path) { io::write_results_hdf5(path, results); });
+  if (job.write_netcdf) output("hindcasts.nc", [&](const auto& path) { io::write_results_netcdf(path, results); });
+  if (job.write_geojson) {
+    output("stations.geojson", [&](const auto& path) { io::write_station_geojson(path, results); });
+  }
+  if (job.write_report) output("report.html", [&](const auto& path) { write_report(path, results, {}); });
+  report("writing", "", written, output_count);
+  summary.wall_seconds = std::chrono::duration<double>(Clock::now() - started).count();
+  summary.results = std::move(results);
+  return summary;
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Summaries
+// ---------------------------------------------------------------------------------------------------------------
+
+std::string RunSummary::brief_report() const {
+  std::ostringstream out;
+  std::set<std::string> methods;
+  for (const auto& s : results.sites) {
+    for (const auto& m : s.methods) methods.insert(m.method);
+  }
+  char seconds[32];
+  std::snprintf(seconds, sizeof seconds, "%.1f", wall_seconds);
+  out << results.sites.size() << " site(s), " << methods.size() << " method(s), " << models_trained
+      << " model(s) trained";
+  if (models_resumed) out << ", " << models_resumed << " resumed";
+  out << ", " << seconds << " s\n";
+  for (const auto& w : results.warnings) out << "warning: " << w << "\n";
+  for (const auto& path : outputs) out << "wrote " << path.string() << "\n";
+  return out.str();
+}
+
+std::string RunSummary::full_report() const {
+  // Per site and method: pooled-over-leads metrics. The first interval's coverage is shown.
+  std::map<std::tuple<std::string, std::string, std::string>, double> value;
+  std::string coverage_name;
+  for (const auto& row : results.metrics) {
+    if (row.lead != -1) continue;
+    value[{row.site, row.method, row.metric}] = row.value;
+    if (coverage_name.empty() && row.metric.rfind("coverage_", 0) == 0) coverage_name = row.metric;
+  }
+  const bool load_like = results.step_seconds < 86400;
+  const std::vector<std::string> columns =
+      load_like ? std::vector<std::string>{"mape", "rmse", "crps", coverage_name}
+                : std::vector<std::string>{"nse", "kge", "crps", coverage_name};
+  std::ostringstream out;
+  char line[256];
+  std::snprintf(line, sizeof line, "%-16s %-16s", "site", "method");
+  out << line;
+  for (const auto& c : columns) {
+    std::snprintf(line, sizeof line, " %12s", c.c_str());
+    out << line;
+  }
+  out << "\n";
+  auto print_site = [&](const std::string& id, const std::vector<std::string>& methods) {
+    for (const auto& m : methods) {
+      std::snprintf(line, sizeof line, "%-16.16s %-16.16s", id.c_str(), m.c_str());
+      out << line;
+      for (const auto& c : columns) {
+        auto it = value.find({id, m, c});
+        if (it == value.end() || !std::isfinite(it->second)) {
+          std::snprintf(line, sizeof line, " %12s", "-");
+        } else {
+          std::snprintf(line, sizeof line, " %12.4g", it->second);
+        }
+        out << line;
+      }
+      out << "\n";
+    }
+  };
+  std::vector<std::string> method_order;
+  for (const auto& s : results.sites) {
+    std::vector<std::string> methods;
+    for (const auto& m : s.methods) {
+      methods.push_back(m.method);
+      if (std::find(method_order.begin(), method_order.end(), m.method) == method_order.end()) {
+        method_order.push_back(m.method);
+      }
+    }
+    print_site(s.site.id, methods);
+  }
+  print_site("*", method_order);
+  out << "(metrics over all lead times of the test period " << results.test_period << "; '*' pools all sites)\n";
+  return out.str();
+}
+
+}  // namespace libseq::pipeline

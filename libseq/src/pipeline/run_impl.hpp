@@ -1,0 +1,52 @@
+#pragma once
+// Private pieces of the batch job shared by run.cpp and the operational forecast: the window source that feeds the
+// trainer from a FeatureTable, and turning ensemble members into quantiles in target units.
+
+#include <span>
+#include <vector>
+
+#include "libseq/data/windows.hpp"
+#include "libseq/nn/network.hpp"
+#include "libseq/train/sequence_source.hpp"
+#include "libseq/uncertainty/mixture.hpp"
+
+namespace libseq::pipeline::detail {
+
+/// Windows of a FeatureTable as a trainer source (views; a batch is packed on demand).
+class WindowSource final : public train::SequenceSource<float> {
+ public:
+  WindowSource(const data::FeatureTable& table, const data::WindowOptions& options, std::vector<data::Window> windows);
+  std::size_t size() const override { return windows_.size(); }
+  std::size_t steps() const override { return options_.sequence_steps(); }
+  std::size_t input_size() const override { return input_size_; }
+  std::size_t static_size() const override { return table_.static_count(); }
+  std::size_t horizon() const override { return options_.lead_count(); }
+  void fill(std::span<const std::size_t> indices, nn::SequenceBatch<float>& batch) const override;
+  const std::vector<data::Window>& windows() const { return windows_; }
+
+ private:
+  const data::FeatureTable& table_;
+  data::WindowOptions options_;
+  std::vector<data::Window> windows_;
+  std::size_t input_size_ = 0;
+};
+
+/// Quantiles, median and mean of every (window, lead) case in target units.
+struct CaseDistributions {
+  std::size_t cases = 0;
+  std::vector<double> levels;     ///< the reported levels
+  std::vector<double> quantiles;  ///< cases × levels
+  std::vector<double> median;     ///< cases
+  std::vector<double> mean;       ///< cases
+  std::size_t member_count = 0;
+  std::vector<double> members;    ///< cases × member_count, in target units (empty unless kept)
+};
+
+/// Mixes members (in the network's scaled, transformed space) and maps the result back to target units through
+/// the table's inverse scaling and transform. Quantiles map exactly because the inverse is increasing; the mean of
+/// a transformed target is the average of the back-transformed quantiles at 200 midpoint levels.
+CaseDistributions to_target_units(const uncertainty::MemberForecasts& members, const data::FeatureTable& table,
+                                  std::span<const data::Window> windows, std::size_t leads,
+                                  const std::vector<double>& levels, bool keep_members);
+
+}  // namespace libseq::pipeline::detail

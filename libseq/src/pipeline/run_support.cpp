@@ -1,0 +1,89 @@
+#include <algorithm>
+#include <cmath>
+
+#include "run_impl.hpp"
+
+namespace libseq::pipeline::detail {
+
+WindowSource::WindowSource(const data::FeatureTable& table, const data::WindowOptions& options,
+                           std::vector<data::Window> windows)
+    : table_(table), options_(options), windows_(std::move(windows)) {
+  input_size_ = data::batch_input_size(table.plan(), options_);
+}
+
+void WindowSource::fill(std::span<const std::size_t> indices, nn::SequenceBatch<float>& batch) const {
+  data::WindowBatch packed;
+  data::fill_batch(table_, options_, windows_, indices, packed);
+  batch.steps = packed.steps;
+  batch.batch = packed.batch;
+  batch.inputs = std::move(packed.inputs);
+  batch.statics = std::move(packed.statics);
+  batch.mask.clear();
+  batch.targets = std::move(packed.targets);
+}
+
+CaseDistributions to_target_units(const uncertainty::MemberForecasts& members, const data::FeatureTable& table,
+                                  std::span<const data::Window> windows, std::size_t leads,
+                                  const std::vector<double>& levels, bool keep_members) {
+  const bool transformed = table.plan().options().transform != data::TargetTransform::none;
+  constexpr std::size_t grid = 200;
+  uncertainty::MixtureOptions options;
+  options.levels = levels;
+  if (transformed) {
+    for (std::size_t i = 0; i < grid; ++i) options.levels.push_back((static_cast<double>(i) + 0.5) / grid);
+  }
+  std::sort(options.levels.begin(), options.levels.end());
+  options.levels.erase(std::unique(options.levels.begin(), options.levels.end()), options.levels.end());
+  options.keep_member_values = keep_members;
+  const uncertainty::MixtureTable mixed = uncertainty::mix(members, options);
+
+  CaseDistributions out;
+  out.cases = mixed.case_count;
+  out.levels = levels;
+  out.quantiles.resize(out.cases * levels.size());
+  out.median.resize(out.cases);
+  out.mean.resize(out.cases);
+  std::vector<std::size_t> level_index;
+  for (double level : levels) {
+    level_index.push_back(static_cast<std::size_t>(
+        std::lower_bound(options.levels.begin(), options.levels.end(), level) - options.levels.begin()));
+  }
+  const std::size_t all_levels = options.levels.size();
+  for (std::size_t c = 0; c < out.cases; ++c) {
+    const std::size_t site = windows[c / leads].site;
+    auto back = [&](double scaled) { return std::isfinite(scaled) ? table.unscale_target(site, scaled) : NAN; };
+    for (std::size_t q = 0; q < levels.size(); ++q) {
+      out.quantiles[c * levels.size() + q] = back(mixed.quantiles[c * all_levels + level_index[q]]);
+    }
+    out.median[c] = back(mixed.median[c]);
+    if (!transformed) {
+      out.mean[c] = back(mixed.mean[c]);
+    } else {
+      double sum = 0.0;
+      std::size_t count = 0;
+      for (std::size_t q = 0; q < all_levels; ++q) {
+        const double level = options.levels[q];
+        // Only the midpoint grid enters the mean (the reported levels may add others).
+        const double position = level * grid - 0.5;
+        if (std::abs(position - std::round(position)) > 1e-9) continue;
+        sum += back(mixed.quantiles[c * all_levels + q]);
+        ++count;
+      }
+      out.mean[c] = count ? sum / static_cast<double>(count) : NAN;
+    }
+  }
+  if (keep_members && !mixed.member_values.empty()) {
+    out.member_count = mixed.member_values.size() / std::max<std::size_t>(1, out.cases);
+    out.members.resize(mixed.member_values.size());
+    for (std::size_t c = 0; c < out.cases; ++c) {
+      const std::size_t site = windows[c / leads].site;
+      for (std::size_t m = 0; m < out.member_count; ++m) {
+        const double v = mixed.member_values[c * out.member_count + m];
+        out.members[c * out.member_count + m] = std::isfinite(v) ? table.unscale_target(site, v) : NAN;
+      }
+    }
+  }
+  return out;
+}
+
+}  // namespace libseq::pipeline::detail
