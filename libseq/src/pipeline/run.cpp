@@ -352,16 +352,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   } else {
     for (std::size_t s = 0; s < site_count; ++s) models.push_back({s});
   }
-  uncertainty::EnsembleOptions ensemble_options;
-  ensemble_options.members = job.members;
-  ensemble_options.resampling = job.resampling;
-  ensemble_options.mc_passes = job.mc_passes;
-  ensemble_options.network = job.network;
-  ensemble_options.network.input_size = data::batch_input_size(plan, job.windows);
-  ensemble_options.network.static_size = plan.static_feature_count();
-  ensemble_options.network.horizon = leads;
-  ensemble_options.training = job.training;
-  ensemble_options.validate();
+  const uncertainty::EnsembleOptions ensemble_options = detail::ensemble_options_for(job, plan);
 
   auto select = [&](const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
     std::vector<data::Window> out;
@@ -398,7 +389,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     for (const auto& w : training.windows()) window_site.push_back(local_site.at(w.site));
     detail::WindowSource validation(table, job.windows, select(all_validation, model_sites));
     auto model_options = ensemble_options;
-    model_options.resampling.seed = uncertainty::member_seed(job.seed, 1000003 * (m + 1));
+    model_options.resampling.seed = detail::model_seed(job.seed, m);
     const uncertainty::Ensemble ensemble = uncertainty::Ensemble::train(
         model_options, training, window_site, model_sites.size(), validation.size() ? &validation : nullptr);
     ++summary.models_trained;

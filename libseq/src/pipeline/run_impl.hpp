@@ -8,6 +8,8 @@
 #include "libseq/data/windows.hpp"
 #include "libseq/nn/network.hpp"
 #include "libseq/train/sequence_source.hpp"
+#include "libseq/pipeline/job.hpp"
+#include "libseq/uncertainty/ensemble.hpp"
 #include "libseq/uncertainty/mixture.hpp"
 
 namespace libseq::pipeline::detail {
@@ -48,5 +50,11 @@ struct CaseDistributions {
 CaseDistributions to_target_units(const uncertainty::MemberForecasts& members, const data::FeatureTable& table,
                                   std::span<const data::Window> windows, std::size_t leads,
                                   const std::vector<double>& levels, bool keep_members);
+
+/// The ensemble options of a job for a fitted feature plan (network input and static sizes, horizon, seeds).
+uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const data::FeaturePlan& plan);
+
+/// Seed of the resamples of model `model` (0-based) of a job: distinct per model, fixed by the job seed.
+std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model);
 
 }  // namespace libseq::pipeline::detail

@@ -86,4 +86,22 @@ CaseDistributions to_target_units(const uncertainty::MemberForecasts& members, c
   return out;
 }
 
+uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const data::FeaturePlan& plan) {
+  uncertainty::EnsembleOptions options;
+  options.members = job.members;
+  options.resampling = job.resampling;
+  options.mc_passes = job.mc_passes;
+  options.network = job.network;
+  options.network.input_size = data::batch_input_size(plan, job.windows);
+  options.network.static_size = plan.static_feature_count();
+  options.network.horizon = job.windows.lead_count();
+  options.training = job.training;
+  options.validate();
+  return options;
+}
+
+std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model) {
+  return uncertainty::member_seed(job_seed, 1000003 * (model + 1));
+}
+
 }  // namespace libseq::pipeline::detail
