@@ -10,11 +10,15 @@
 
 #include <algorithm>
 #include <atomic>
+#include <chrono>
 #include <cmath>
 #include <cstdint>
 #include <memory>
+#include <mutex>
 #include <random>
+#include <set>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "libseq/error.hpp"
@@ -115,6 +119,37 @@ class CountingSource final : public train::SequenceSource<float> {
   std::unique_ptr<std::atomic<unsigned>[]> counts_;
 };
 
+// A source that records which OpenMP threads pack batches. The first fill on each thread sleeps 50 ms, so that
+// with 2 threads the second thread surely takes a member before the first has trained them all; without that, a
+// fast first thread could train every member alone and the thread-count comparison would show nothing.
+class ThreadRecordingSource final : public train::SequenceSource<float> {
+ public:
+  explicit ThreadRecordingSource(const train::InMemorySequences<float>& base) : base_(base) {}
+  std::size_t size() const override { return base_.size(); }
+  std::size_t steps() const override { return base_.steps(); }
+  std::size_t input_size() const override { return base_.input_size(); }
+  std::size_t static_size() const override { return base_.static_size(); }
+  std::size_t horizon() const override { return base_.horizon(); }
+  void fill(std::span<const std::size_t> indices, nn::SequenceBatch<float>& batch) const override {
+    bool first_on_thread = false;
+    {
+      const std::lock_guard<std::mutex> lock(mutex_);
+      first_on_thread = threads_.insert(omp_get_thread_num()).second;
+    }
+    if (first_on_thread) std::this_thread::sleep_for(std::chrono::milliseconds(50));
+    base_.fill(indices, batch);
+  }
+  std::size_t threads_seen() const {
+    const std::lock_guard<std::mutex> lock(mutex_);
+    return threads_.size();
+  }
+
+ private:
+  const train::InMemorySequences<float>& base_;
+  mutable std::mutex mutex_;
+  mutable std::set<int> threads_;
+};
+
 std::vector<float> parameters_of(const nn::Network<float>& network) {
   return {network.parameters().begin(), network.parameters().end()};
 }
@@ -133,8 +168,8 @@ TEST(EnsembleOptions, ValidateListsEveryBrokenRule) {
     FAIL() << "expected ConfigError";
   } catch (const ConfigError& e) {
     const std::string text = e.what();
-    for (const char* key : {"ensemble.members", "ensemble.mc_passes", "network.hidden_size", "train.loss",
-                            "resample.lookback_steps"}) {
+    for (const char* key :
+         {"ensemble.members", "ensemble.mc_passes", "network.hidden_size", "train.loss", "resample.lookback_steps"}) {
       EXPECT_NE(text.find(key), std::string::npos) << key << " missing from: " << text;
     }
   }
@@ -154,13 +189,18 @@ TEST(Ensemble, WeightsAndForecastsDoNotDependOnTheThreadCount) {
 
   const int saved = omp_get_max_threads();
   omp_set_num_threads(1);
-  const Ensemble one = Ensemble::train(options, training, window_site, 1, &validation);
+  const ThreadRecordingSource serial_source(training);
+  const Ensemble one = Ensemble::train(options, serial_source, window_site, 1, &validation);
   const MemberForecasts one_forecasts = one.predict(validation, 77);
   omp_set_num_threads(2);
-  ASSERT_EQ(omp_get_max_threads(), 2);
-  const Ensemble two = Ensemble::train(options, training, window_site, 1, &validation);
-  const MemberForecasts two_forecasts = two.predict(validation, 77);
+  const ThreadRecordingSource parallel_source(training);
+  const Ensemble two = Ensemble::train(options, parallel_source, window_site, 1, &validation);
+  const ThreadRecordingSource parallel_target(validation);
+  const MemberForecasts two_forecasts = two.predict(parallel_target, 77);
   omp_set_num_threads(saved);
+  EXPECT_EQ(serial_source.threads_seen(), 1u);
+  ASSERT_EQ(parallel_source.threads_seen(), 2u) << "training did not run on two threads";
+  ASSERT_EQ(parallel_target.threads_seen(), 2u) << "prediction did not run on two threads";
 
   ASSERT_EQ(one.networks().size(), 3u);
   ASSERT_EQ(two.networks().size(), 3u);

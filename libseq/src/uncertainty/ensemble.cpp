@@ -281,9 +281,9 @@ Ensemble Ensemble::from_networks(EnsembleOptions options, std::vector<nn::Networ
                                  std::vector<EnsembleMember> members) {
   options.validate();
   if (networks.size() != options.members || members.size() != options.members) {
-    throw DataError("ensemble: " + std::to_string(networks.size()) + " networks and " +
-                    std::to_string(members.size()) + " member records given, expected ensemble.members = " +
-                    std::to_string(options.members) + " of each");
+    throw DataError("ensemble: " + std::to_string(networks.size()) + " networks and " + std::to_string(members.size()) +
+                    " member records given, expected ensemble.members = " + std::to_string(options.members) +
+                    " of each");
   }
   const std::size_t parameters = nn::Network<float>(options.network).parameter_count();
   for (std::size_t m = 0; m < networks.size(); ++m) {
