@@ -726,13 +726,24 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
     // Weight gradients: one product over all steps each.
     CMap x(layer.input_data, etb, ein);
     MapM(gradients_.data() + o.input_weights, egh, ein).noalias() = w.d_pre.transpose() * x;
-    MapRow(gradients_.data() + o.input_bias, egh) = w.d_pre.colwise().sum();
+    // Bias gradients as row sums: a plain loop over contiguous rows vectorises, where Eigen's colwise() reduction
+    // of a row-major matrix does not (it took ~15% of a training step).
+    const auto column_sums = [&](const Mat& m, Scalar* out) {
+      MapRow sums(out, m.cols());
+      sums.setZero();
+      for (Eigen::Index r = 0; r < m.rows(); ++r) sums += m.row(r);
+    };
+    column_sums(w.d_pre, gradients_.data() + o.input_bias);
     if (recurrent_drop) {
       MapM(gradients_.data() + o.recurrent_weights, egh, eh).noalias() = d_rec.transpose() * layer.hidden_dropped;
     } else {
       MapM(gradients_.data() + o.recurrent_weights, egh, eh).noalias() = d_rec.transpose() * layer.hidden.topRows(etb);
     }
-    MapRow(gradients_.data() + o.recurrent_bias, egh) = d_rec.colwise().sum();
+    if (&d_rec == &w.d_pre) {
+      std::copy_n(gradients_.data() + o.input_bias, gh, gradients_.data() + o.recurrent_bias);
+    } else {
+      column_sums(d_rec, gradients_.data() + o.recurrent_bias);
+    }
     if (li == 0 && s > 0) {
       ensure(w.static_gate_sums, nb, gh);
       w.static_gate_sums.setZero();
