@@ -373,10 +373,38 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     network_blocks.push_back(make_block(network_method_name, cases[s].issues.size(), leads, job.quantiles));
   }
   RunSummary summary;
+  // Checkpoints for --resume: one results file per finished model, valid only for the same job text, seed and
+  // input files (the fingerprint), removed when the run completes.
+  for (const auto& f : job.files) results.provenance.inputs.push_back({f.string(), io::sha256_of_file(f)});
+  std::string fingerprint = job.job_text + "\nseed " + std::to_string(job.seed);
+  for (const auto& input : results.provenance.inputs) fingerprint += "\n" + input.sha256;
+  const auto checkpoint_dir = job.output_directory / ".resume";
+  auto checkpoint_path = [&](std::size_t m) {
+    char name[32];
+    std::snprintf(name, sizeof name, "model_%05zu.h5", m);
+    return checkpoint_dir / name;
+  };
+  if (!run_options.resume) std::filesystem::remove_all(checkpoint_dir);
+  std::filesystem::create_directories(checkpoint_dir);
   for (std::size_t m = 0; m < models.size(); ++m) {
     const auto& model_sites = models[m];
     const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
     report("training", "model " + model_name, m, models.size());
+    if (run_options.resume && std::filesystem::exists(checkpoint_path(m))) {
+      const io::RunResults done = io::read_results_hdf5(checkpoint_path(m));
+      if (done.summary == fingerprint && done.sites.size() == model_sites.size()) {
+        for (std::size_t i = 0; i < model_sites.size(); ++i) network_blocks[model_sites[i]] = done.sites[i].methods.at(0);
+        for (const auto& record : done.training) {
+          results.training.push_back(record);
+          results.provenance.seeds.push_back(record.seed);
+        }
+        ++summary.models_resumed;
+        continue;
+      }
+      results.warnings.push_back("model " + model_name + ": its checkpoint belongs to another job, seed or input; "
+                                 "trained again");
+    }
+    const std::size_t records_before = results.training.size();
     detail::WindowSource training(table, job.windows, select(all_train, model_sites));
     if (training.size() == 0) {
       results.warnings.push_back("model " + model_name + ": no training window with an observed target in the fit "
@@ -545,6 +573,18 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
         }
       }
     }
+    io::RunResults checkpoint;
+    checkpoint.summary = fingerprint;
+    checkpoint.mode = results.mode;
+    checkpoint.leads = results.leads;
+    for (std::size_t s : model_sites) {
+      io::SiteResults site = results.sites[s];
+      site.methods = {network_blocks[s]};
+      checkpoint.sites.push_back(std::move(site));
+    }
+    checkpoint.training.assign(results.training.begin() + static_cast<std::ptrdiff_t>(records_before),
+                               results.training.end());
+    io::write_results_hdf5(checkpoint_path(m), checkpoint);
   }
   report("training", "", models.size(), models.size());
   for (std::size_t s = 0; s < site_count; ++s) results.sites[s].methods.push_back(std::move(network_blocks[s]));
@@ -625,7 +665,6 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   p.git_commit = git_commit();
   p.created = now_iso();
   p.threads = threads;
-  for (const auto& f : job.files) p.inputs.push_back({f.string(), io::sha256_of_file(f)});
   p.wall_seconds = std::chrono::duration<double>(Clock::now() - started).count();
 
   std::filesystem::create_directories(job.output_directory);
@@ -645,6 +684,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   }
   if (job.write_report) output("report.html", [&](const auto& path) { write_report(path, results, {}); });
   report("writing", "", written, output_count);
+  std::filesystem::remove_all(checkpoint_dir);
   summary.wall_seconds = std::chrono::duration<double>(Clock::now() - started).count();
   summary.results = std::move(results);
   return summary;
