@@ -248,6 +248,9 @@ void read_job(ConfigReader& r, JobConfig& job) {
                                                              "steps (sub-daily data) or 365 (daily)."));
   job.second_seasonal_period = static_cast<std::size_t>(r.integer(
       "baselines", "second_seasonal_period", 0, 0, 100000, "steps", "Second season of double-seasonal Holt-Winters."));
+  job.naive_period = static_cast<std::size_t>(r.integer(
+      "baselines", "naive_period", 0, 0, 100000, "steps",
+      "Period of seasonal_naive (e.g. 168 on hourly data: the same hour a week before); 0 = seasonal_period."));
   collect(r, [&] {
     job.smoothing = baselines::parse_smoothing_model(r.choice(
         "baselines", "smoothing", "holt", {"simple", "holt", "holt_winters", "double_seasonal"},
@@ -457,7 +460,7 @@ head = "gaussian"
 
 [training]
 scope = "across_sites"           # one model trained on all catchments
-epochs = 20
+epochs = 15
 batch_size = 128
 learning_rate = 0.005
 
@@ -529,8 +532,10 @@ members = 4
 
 [baselines]
 methods = ["persistence", "seasonal_naive", "exp_smoothing"]
-seasonal_period = 168            # one week of hours
-smoothing = "holt"
+seasonal_period = 24             # the daily cycle of hourly data...
+second_seasonal_period = 168     # ...and the weekly one
+naive_period = 168               # seasonal naive: the same hour one week before
+smoothing = "double_seasonal"    # additive Holt-Winters with both seasons
 
 [scoring]
 intervals = [0.8, 0.95]

@@ -139,7 +139,7 @@ std::unique_ptr<baselines::Forecaster> make_baseline(baselines::BaselineKind kin
       return std::make_unique<baselines::Persistence>();
     case baselines::BaselineKind::seasonal_naive: {
       baselines::SeasonalNaiveOptions o;
-      o.period_steps = season;
+      o.period_steps = job.naive_period ? job.naive_period : season;
       return std::make_unique<baselines::SeasonalNaive>(o);
     }
     case baselines::BaselineKind::climatology:

@@ -63,6 +63,7 @@ struct JobConfig {
   std::vector<baselines::BaselineKind> baselines;
   std::size_t seasonal_period = 0;         ///< steps; 0 = one day of steps (sub-daily) or 365 (daily)
   std::size_t second_seasonal_period = 0;  ///< steps; 0 = one week of steps (sub-daily) or none
+  std::size_t naive_period = 0;            ///< steps of seasonal_naive; 0 = seasonal_period
   baselines::RidgeArxOptions ridge;
   baselines::ClimatologyOptions climatology;
   baselines::SmoothingModel smoothing = baselines::SmoothingModel::holt;
