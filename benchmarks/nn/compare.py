@@ -2,6 +2,7 @@
 """Runs nn_recurrent_benchmark (runnel, 1 thread) and torch_peer.py (PyTorch, 1 and 2 threads) in one go and prints
 one table. Usage (from the source root, after building the benchmark in <build>):
   /usr/bin/python3 benchmarks/nn/compare.py --binary <build>/benchmarks/nn/nn_recurrent_benchmark [--repetitions N]
+      [--torch-json FILE]   (reuse a saved `torch_peer.py --json` run instead of running torch again)
 """
 import argparse
 import json
@@ -36,9 +37,13 @@ def runnel_rows(binary, repetitions):
     return rows, gemm
 
 
-def torch_rows(repetitions):
-    out = subprocess.run([sys.executable, os.path.join(HERE, "torch_peer.py"), "--json",
-                          "--repetitions", str(repetitions)], check=True, capture_output=True, text=True).stdout
+def torch_rows(repetitions, cached):
+    if cached:
+        with open(cached) as f:
+            out = f.read()
+    else:
+        out = subprocess.run([sys.executable, os.path.join(HERE, "torch_peer.py"), "--json",
+                              "--repetitions", str(repetitions)], check=True, capture_output=True, text=True).stdout
     rows = {}
     for line in out.splitlines():
         r = json.loads(line)
@@ -50,9 +55,10 @@ def main():
     parser = argparse.ArgumentParser()
     parser.add_argument("--binary", required=True)
     parser.add_argument("--repetitions", type=int, default=3)
+    parser.add_argument("--torch-json", help="read torch_peer.py --json output from this file instead of running it")
     args = parser.parse_args()
     ours, gemm = runnel_rows(args.binary, args.repetitions)
-    peer = torch_rows(args.repetitions)
+    peer = torch_rows(args.repetitions, args.torch_json)
     print("| mode | cell | D | H | T | B | runnel seq/s | runnel GFLOP/s | torch 1t seq/s | torch 2t seq/s | "
           "runnel / torch 1t |")
     print("|---|---|---|---|---|---|---|---|---|---|---|")

@@ -103,8 +103,9 @@ void eigen_gemm(benchmark::State& state) {
     c.noalias() = a * b;
     benchmark::DoNotOptimize(c.data());
   }
-  state.counters["GFLOP_per_s"] = benchmark::Counter(
-      static_cast<double>(state.iterations()) * 2.0 * static_cast<double>(n * n * n) * 1e-9, benchmark::Counter::kIsRate);
+  state.counters["GFLOP_per_s"] =
+      benchmark::Counter(static_cast<double>(state.iterations()) * 2.0 * static_cast<double>(n * n * n) * 1e-9,
+                         benchmark::Counter::kIsRate);
 }
 
 void configurations(benchmark::internal::Benchmark* b) {

@@ -30,7 +30,7 @@ struct Case {
   bool masked = false;          // left-pad the second sequence by two steps
   bool missing_target = false;  // one NaN target
   DropoutMode dropout = DropoutMode::off;
-  bool initial_state = false;   // start from a non-zero state (truncated BPTT)
+  bool initial_state = false;  // start from a non-zero state (truncated BPTT)
 };
 
 void check_gradients(const Case& c) {

@@ -32,7 +32,8 @@ TEST(Loss, GaussianNllMatchesTorchGaussianNllLossWithMissingTargets) {
     outputs.push_back(ref.at("log_variance")[i]);
   }
   std::vector<double> gradient(outputs.size());
-  const double value = libseq::nn::loss_and_output_gradient<double>(Loss{LossType::gaussian_nll, {}}, outputs, y, gradient);
+  const double value =
+      libseq::nn::loss_and_output_gradient<double>(Loss{LossType::gaussian_nll, {}}, outputs, y, gradient);
   EXPECT_NEAR(value, ref.at("gaussian_nll")[0], 1e-12 * std::abs(ref.at("gaussian_nll")[0]));
   for (std::size_t i = 0; i < y.size(); ++i) {
     EXPECT_NEAR(gradient[2 * i], ref.at("grad.mean")[i], 1e-12) << i;
@@ -46,7 +47,8 @@ TEST(Loss, SquaredSumAndMeanMatchTorchMseLossWithMissingTargets) {
   const auto ref = losses_reference();
   const auto& y = ref.at("targets");
   const auto& point = ref.at("point");
-  for (auto [type, name] : {std::pair{LossType::squared_sum, "squared_sum"}, std::pair{LossType::squared_mean, "squared_mean"}}) {
+  for (auto [type, name] :
+       {std::pair{LossType::squared_sum, "squared_sum"}, std::pair{LossType::squared_mean, "squared_mean"}}) {
     std::vector<double> gradient(point.size());
     const double value = libseq::nn::loss_and_output_gradient<double>(Loss{type, {}}, point, y, gradient);
     EXPECT_NEAR(value, ref.at(name)[0], 1e-12 * ref.at(name)[0]) << name;

@@ -20,7 +20,8 @@ nn::SequenceBatch<Scalar> random_batch(const nn::NetworkOptions& options, std::s
   nn::SequenceBatch<Scalar> b;
   b.steps = steps;
   b.batch = batch;
-  for (std::size_t i = 0; i < steps * batch * options.input_size; ++i) b.inputs.push_back(static_cast<Scalar>(normal(rng)));
+  for (std::size_t i = 0; i < steps * batch * options.input_size; ++i)
+    b.inputs.push_back(static_cast<Scalar>(normal(rng)));
   for (std::size_t i = 0; i < batch * options.static_size; ++i) b.statics.push_back(static_cast<Scalar>(normal(rng)));
   for (std::size_t i = 0; i < batch * options.horizon; ++i) b.targets.push_back(static_cast<Scalar>(normal(rng)));
   return b;
@@ -36,7 +37,8 @@ nn::Network<Scalar> random_network(const nn::NetworkOptions& options, std::uint6
   std::uniform_real_distribution<double> uniform(-0.3, 0.3);
   for (const auto& block : net.parameter_layout()) {
     if (block.cols != 1) continue;
-    for (std::size_t i = 0; i < block.rows; ++i) net.parameters()[block.offset + i] += static_cast<Scalar>(uniform(rng));
+    for (std::size_t i = 0; i < block.rows; ++i)
+      net.parameters()[block.offset + i] += static_cast<Scalar>(uniform(rng));
   }
   return net;
 }

@@ -68,7 +68,8 @@ TEST_P(EveryCell, LeftPaddedSequenceMatchesTheShortSequenceAlone) {
 
   const double loss_padded = net.loss_and_gradient(padded, loss, DropoutMode::off, nullptr);
   EXPECT_NEAR(loss_padded, loss_alone, 1e-12);
-  for (std::size_t k = 0; k < out_alone.size(); ++k) EXPECT_NEAR(net.last_outputs()[out_alone.size() + k], out_alone[k], 1e-12);
+  for (std::size_t k = 0; k < out_alone.size(); ++k)
+    EXPECT_NEAR(net.last_outputs()[out_alone.size() + k], out_alone[k], 1e-12);
   for (std::size_t i = 0; i < grad_alone.size(); ++i) EXPECT_NEAR(net.gradients()[i], grad_alone[i], 1e-12) << i;
   for (std::size_t t = 0; t < long_steps; ++t) {
     for (std::size_t j = 0; j < o.input_size; ++j) {
@@ -123,14 +124,16 @@ TEST_P(EveryCell, InitialisationFollowsTheStatedSchemes) {
     const auto& rec = net.block("layer" + std::to_string(l) + ".recurrent_weights");
     for (std::size_t gate = 0; gate < g; ++gate) {
       Eigen::Map<const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>> q(
-          net.parameters().data() + rec.offset + gate * h * h, static_cast<Eigen::Index>(h), static_cast<Eigen::Index>(h));
+          net.parameters().data() + rec.offset + gate * h * h, static_cast<Eigen::Index>(h),
+          static_cast<Eigen::Index>(h));
       EXPECT_LT((q.transpose() * q - Eigen::MatrixXd::Identity(h, h)).cwiseAbs().maxCoeff(), 1e-12);
     }
     const auto& in = net.block("layer" + std::to_string(l) + ".input_weights");
     const double fan_in = l == 0 ? static_cast<double>(o.input_size + o.static_size) : static_cast<double>(h);
     const double bound = std::sqrt(6.0 / (fan_in + static_cast<double>(h)));
     double largest = 0.0;
-    for (std::size_t i = 0; i < in.rows * in.cols; ++i) largest = std::max(largest, std::abs(net.parameters()[in.offset + i]));
+    for (std::size_t i = 0; i < in.rows * in.cols; ++i)
+      largest = std::max(largest, std::abs(net.parameters()[in.offset + i]));
     EXPECT_LE(largest, bound);
     EXPECT_GT(largest, 0.3 * bound);
     const auto& bias = net.block("layer" + std::to_string(l) + ".input_bias");

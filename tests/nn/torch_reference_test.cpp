@@ -1,8 +1,8 @@
 // Forward states, loss and every gradient of Network against torch.nn.RNN / LSTM / GRU (Debian python3-torch
 // 1.13), stored by validation/torch_reference/make_reference.py. Pass rule (validation/torch_reference/README.md):
 // normwise error e = max_i |a_i − b_i| / max(max_i |b_i|, 1e-3) over each array (element-wise relative error is
-// not meaningful in float32 for states near 0, where the pre-activation sum cancels); float32: e <= 1e-5 for states and loss,
-// e <= 1e-4 for gradients; float64: e <= 1e-10 for everything.
+// not meaningful in float32 for states near 0, where the pre-activation sum cancels); float32: e <= 1e-5 for states and
+// loss, e <= 1e-4 for gradients; float64: e <= 1e-10 for everything.
 
 #include <gtest/gtest.h>
 
@@ -59,7 +59,8 @@ void check_case(const std::string& name) {
   for (double v : ref.at("inputs")) batch.inputs.push_back(static_cast<Scalar>(v));
   for (double v : ref.at("targets")) batch.targets.push_back(static_cast<Scalar>(v));
 
-  const Scalar loss = net.loss_and_gradient(batch, Loss{LossType::squared_mean, {}}, libseq::nn::DropoutMode::off, nullptr);
+  const Scalar loss =
+      net.loss_and_gradient(batch, Loss{LossType::squared_mean, {}}, libseq::nn::DropoutMode::off, nullptr);
 
   const double forward_tol = single ? 1e-5 : 1e-10;
   const double gradient_tol = single ? 1e-4 : 1e-10;
@@ -72,8 +73,9 @@ void check_case(const std::string& name) {
   for (std::size_t l = 0; l < options.layers; ++l) {
     auto state = net.final_state().subspan(l * per_layer * bh);
     final_h.insert(final_h.end(), state.begin(), state.begin() + static_cast<std::ptrdiff_t>(bh));
-    if (per_layer == 2) final_c.insert(final_c.end(), state.begin() + static_cast<std::ptrdiff_t>(bh),
-                                       state.begin() + static_cast<std::ptrdiff_t>(2 * bh));
+    if (per_layer == 2)
+      final_c.insert(final_c.end(), state.begin() + static_cast<std::ptrdiff_t>(bh),
+                     state.begin() + static_cast<std::ptrdiff_t>(2 * bh));
   }
   EXPECT_LE(relative_error(final_h, ref.at("final_h")), forward_tol) << name << " final_h";
   if (per_layer == 2) {
@@ -95,7 +97,7 @@ void check_case(const std::string& name) {
 }
 
 // One plain TEST per case (not TEST_P): CTest names then carry no quoted parameter values.
-#define LIBSEQ_TORCH_CASE(Name, file)                                                     \
+#define LIBSEQ_TORCH_CASE(Name, file)                                                               \
   TEST(TorchReference, Name##Float32MatchesTorchWithinStatedTolerance) { check_case<float>(file); } \
   TEST(TorchReference, Name##Float64MatchesTorchWithinStatedTolerance) { check_case<double>(file); }
 

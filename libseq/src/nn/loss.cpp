@@ -11,10 +11,14 @@ namespace libseq::nn {
 
 std::string to_string(LossType type) {
   switch (type) {
-    case LossType::squared_sum: return "squared_sum";
-    case LossType::squared_mean: return "squared_mean";
-    case LossType::gaussian_nll: return "gaussian_nll";
-    case LossType::pinball: return "pinball";
+    case LossType::squared_sum:
+      return "squared_sum";
+    case LossType::squared_mean:
+      return "squared_mean";
+    case LossType::gaussian_nll:
+      return "gaussian_nll";
+    case LossType::pinball:
+      return "pinball";
   }
   return "unknown";
 }
@@ -29,16 +33,20 @@ LossType parse_loss_type(std::string_view text, std::string_view key) {
 
 std::size_t Loss::outputs_per_lead() const {
   switch (type) {
-    case LossType::gaussian_nll: return 2;
-    case LossType::pinball: return quantile_levels.size();
-    default: return 1;
+    case LossType::gaussian_nll:
+      return 2;
+    case LossType::pinball:
+      return quantile_levels.size();
+    default:
+      return 1;
   }
 }
 
 void Loss::validate() const {
   std::ostringstream problems;
   if (type == LossType::pinball) {
-    if (quantile_levels.empty()) problems << "\n  loss.quantile_levels is empty: the pinball loss needs at least one level";
+    if (quantile_levels.empty())
+      problems << "\n  loss.quantile_levels is empty: the pinball loss needs at least one level";
     for (std::size_t i = 0; i < quantile_levels.size(); ++i) {
       const double q = quantile_levels[i];
       if (!(q > 0.0 && q < 1.0)) {
@@ -80,10 +88,16 @@ Scalar evaluate(const Loss& loss, std::span<const Scalar> outputs, std::span<con
   // averaged over the levels too).
   double scale = 1.0;
   switch (loss.type) {
-    case LossType::squared_sum: scale = 1.0; break;
+    case LossType::squared_sum:
+      scale = 1.0;
+      break;
     case LossType::squared_mean:
-    case LossType::gaussian_nll: scale = 1.0 / static_cast<double>(present); break;
-    case LossType::pinball: scale = 1.0 / (static_cast<double>(present) * static_cast<double>(k)); break;
+    case LossType::gaussian_nll:
+      scale = 1.0 / static_cast<double>(present);
+      break;
+    case LossType::pinball:
+      scale = 1.0 / (static_cast<double>(present) * static_cast<double>(k));
+      break;
   }
   for (std::size_t i = 0; i < targets.size(); ++i) {
     const double y = targets[i];
@@ -138,8 +152,8 @@ template <typename Scalar>
 Scalar loss_and_output_gradient(const Loss& loss, std::span<const Scalar> outputs, std::span<const Scalar> targets,
                                 std::span<Scalar> output_gradient) {
   if (output_gradient.size() != outputs.size()) {
-    throw DataError("loss " + to_string(loss.type) + ": output_gradient has " +
-                    std::to_string(output_gradient.size()) + " values, expected " + std::to_string(outputs.size()));
+    throw DataError("loss " + to_string(loss.type) + ": output_gradient has " + std::to_string(output_gradient.size()) +
+                    " values, expected " + std::to_string(outputs.size()));
   }
   if (outputs.empty()) {
     loss.validate();

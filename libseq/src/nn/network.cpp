@@ -16,9 +16,12 @@ namespace libseq::nn {
 
 std::string to_string(CellType type) {
   switch (type) {
-    case CellType::elman: return "elman";
-    case CellType::lstm: return "lstm";
-    case CellType::gru: return "gru";
+    case CellType::elman:
+      return "elman";
+    case CellType::lstm:
+      return "lstm";
+    case CellType::gru:
+      return "gru";
   }
   return "unknown";
 }
@@ -32,9 +35,12 @@ CellType parse_cell_type(std::string_view text, std::string_view key) {
 
 std::string to_string(ElmanActivation activation) {
   switch (activation) {
-    case ElmanActivation::tanh: return "tanh";
-    case ElmanActivation::relu: return "relu";
-    case ElmanActivation::identity: return "identity";
+    case ElmanActivation::tanh:
+      return "tanh";
+    case ElmanActivation::relu:
+      return "relu";
+    case ElmanActivation::identity:
+      return "identity";
   }
   return "unknown";
 }
@@ -48,9 +54,12 @@ ElmanActivation parse_elman_activation(std::string_view text, std::string_view k
 
 std::string to_string(HeadType type) {
   switch (type) {
-    case HeadType::point: return "point";
-    case HeadType::gaussian: return "gaussian";
-    case HeadType::quantile: return "quantile";
+    case HeadType::point:
+      return "point";
+    case HeadType::gaussian:
+      return "gaussian";
+    case HeadType::quantile:
+      return "quantile";
   }
   return "unknown";
 }
@@ -94,17 +103,23 @@ void NetworkOptions::validate() const {
 
 std::size_t NetworkOptions::outputs_per_lead() const {
   switch (head) {
-    case HeadType::gaussian: return 2;
-    case HeadType::quantile: return quantile_levels.size();
-    default: return 1;
+    case HeadType::gaussian:
+      return 2;
+    case HeadType::quantile:
+      return quantile_levels.size();
+    default:
+      return 1;
   }
 }
 
 std::size_t NetworkOptions::gates() const {
   switch (cell) {
-    case CellType::lstm: return 4;
-    case CellType::gru: return 3;
-    default: return 1;
+    case CellType::lstm:
+      return 4;
+    case CellType::gru:
+      return 3;
+    default:
+      return 1;
   }
 }
 
@@ -136,22 +151,22 @@ struct Network<Scalar>::Workspace {
   std::size_t static_weights = 0, head_weights = 0, head_bias = 0;
 
   struct Layer {
-    Mat pre;            // T·B × G·H: input projection + biases, then the gate activations of each step
-    Mat hidden;         // (T+1)·B × H: rows [0,B) the initial state, rows [(t+1)B, (t+2)B) h_t
-    Mat cell;           // LSTM: (T+1)·B × H, like hidden
-    Mat recurrent_n;    // GRU: T·B × H, U_n h̃_{t−1} + b_hn (needed by the reset-gate derivative)
+    Mat pre;             // T·B × G·H: input projection + biases, then the gate activations of each step
+    Mat hidden;          // (T+1)·B × H: rows [0,B) the initial state, rows [(t+1)B, (t+2)B) h_t
+    Mat cell;            // LSTM: (T+1)·B × H, like hidden
+    Mat recurrent_n;     // GRU: T·B × H, U_n h̃_{t−1} + b_hn (needed by the reset-gate derivative)
     Mat hidden_dropped;  // T·B × H: h̃_{t−1} = h_{t−1} ⊙ recurrent mask (only with recurrent dropout)
-    Mat input;          // T·B × D_l: dropped layer input (only when a dropout mask applies to it)
+    Mat input;           // T·B × D_l: dropped layer input (only when a dropout mask applies to it)
     Mat recurrent_mask;  // B × H (empty = no recurrent dropout this pass)
     Mat output_mask;     // B × H (empty = no output dropout this pass)
     const Scalar* input_data = nullptr;  // the layer input actually used, T·B × D_l row-major
   };
   std::vector<Layer> layers;
-  Mat input_mask;       // B × D (empty = no input dropout this pass)
-  Mat static_projection;  // B × G·H
-  Mat recurrent;        // B × G·H scratch: U h̃_{t−1} + b_hh
-  Mat d_pre, d_recurrent;  // T·B × G·H: d loss / d (input side), d (recurrent side) pre-activations
-  Mat d_output, d_input;   // T·B × H, T·B × max(D, H): gradient wrt a layer's outputs / inputs
+  Mat input_mask;                // B × D (empty = no input dropout this pass)
+  Mat static_projection;         // B × G·H
+  Mat recurrent;                 // B × G·H scratch: U h̃_{t−1} + b_hh
+  Mat d_pre, d_recurrent;        // T·B × G·H: d loss / d (input side), d (recurrent side) pre-activations
+  Mat d_output, d_input;         // T·B × H, T·B × max(D, H): gradient wrt a layer's outputs / inputs
   Mat dh, dc, carry_h, carry_c;  // B × H
   Mat head_input, d_head;        // B × H, B × outputs
   Mat static_gate_sums;          // B × G·H
@@ -315,9 +330,9 @@ std::size_t Network<Scalar>::workspace_bytes() const {
     add(layer.recurrent_mask);
     add(layer.output_mask);
   }
-  for (const auto* m : {&w.input_mask, &w.static_projection, &w.recurrent, &w.d_pre, &w.d_recurrent, &w.d_output,
-                        &w.d_input, &w.dh, &w.dc, &w.carry_h, &w.carry_c, &w.head_input, &w.d_head,
-                        &w.static_gate_sums}) {
+  for (const auto* m :
+       {&w.input_mask, &w.static_projection, &w.recurrent, &w.d_pre, &w.d_recurrent, &w.d_output, &w.d_input, &w.dh,
+        &w.dc, &w.carry_h, &w.carry_c, &w.head_input, &w.d_head, &w.static_gate_sums}) {
     add(*m);
   }
   return count * sizeof(Scalar);
@@ -356,8 +371,8 @@ void Network<Scalar>::forward(const SequenceBatch<Scalar>& batch, DropoutMode mo
                     std::to_string(nb) + ") × static_size (" + std::to_string(s) + ")");
   }
   if (!batch.mask.empty() && batch.mask.size() != steps * nb) {
-    throw DataError("sequence batch mask has " + std::to_string(batch.mask.size()) + " values, expected steps × batch (" +
-                    std::to_string(steps * nb) + ") or none");
+    throw DataError("sequence batch mask has " + std::to_string(batch.mask.size()) +
+                    " values, expected steps × batch (" + std::to_string(steps * nb) + ") or none");
   }
   if (!initial_state_.empty() && initial_state_.size() != state_size(nb)) {
     throw DataError("network initial state holds " + std::to_string(initial_state_.size() / state_size(1)) +
@@ -441,7 +456,8 @@ void Network<Scalar>::forward(const SequenceBatch<Scalar>& batch, DropoutMode mo
       CMap w_s(parameters_.data() + w.static_weights, egh, static_cast<Eigen::Index>(s));
       ensure(w.static_projection, nb, gh);
       w.static_projection.noalias() = statics * w_s.transpose();
-      for (std::size_t t = 0; t < steps; ++t) layer.pre.middleRows(static_cast<Eigen::Index>(t * nb), eb) += w.static_projection;
+      for (std::size_t t = 0; t < steps; ++t)
+        layer.pre.middleRows(static_cast<Eigen::Index>(t * nb), eb) += w.static_projection;
     }
 
     // Initial state.
@@ -451,7 +467,8 @@ void Network<Scalar>::forward(const SequenceBatch<Scalar>& batch, DropoutMode mo
       if (options_.cell == CellType::lstm) layer.cell.topRows(eb).setZero();
     } else {
       layer.hidden.topRows(eb) = CMap(initial_state_.data() + state_base, eb, eh);
-      if (options_.cell == CellType::lstm) layer.cell.topRows(eb) = CMap(initial_state_.data() + state_base + nb * h, eb, eh);
+      if (options_.cell == CellType::lstm)
+        layer.cell.topRows(eb) = CMap(initial_state_.data() + state_base + nb * h, eb, eh);
     }
     const bool recurrent_drop = layer.recurrent_mask.size() > 0;
     if (recurrent_drop) ensure(layer.hidden_dropped, steps * nb, h);
@@ -575,12 +592,14 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
     std::ostringstream problem;
     const bool squared = loss.type == LossType::squared_sum || loss.type == LossType::squared_mean;
     if (options_.head == HeadType::point && !squared) problem << "head point needs loss squared_sum or squared_mean";
-    if (options_.head == HeadType::gaussian && loss.type != LossType::gaussian_nll) problem << "head gaussian needs loss gaussian_nll";
+    if (options_.head == HeadType::gaussian && loss.type != LossType::gaussian_nll)
+      problem << "head gaussian needs loss gaussian_nll";
     if (options_.head == HeadType::quantile &&
         (loss.type != LossType::pinball || loss.quantile_levels != options_.quantile_levels)) {
       problem << "head quantile needs loss pinball with the same quantile_levels";
     }
-    if (!problem.str().empty()) throw ConfigError("loss " + to_string(loss.type) + " does not fit the network: " + problem.str());
+    if (!problem.str().empty())
+      throw ConfigError("loss " + to_string(loss.type) + " does not fit the network: " + problem.str());
   }
   if (batch.targets.size() != batch.batch * options_.horizon) {
     throw DataError("sequence batch targets has " + std::to_string(batch.targets.size()) + " values, expected batch (" +
@@ -602,8 +621,8 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
   };
 
   ensure(w.d_head, nb, outputs);
-  const Scalar value = loss_and_output_gradient<Scalar>(loss, outputs_, batch.targets,
-                                                        std::span<Scalar>(w.d_head.data(), nb * outputs));
+  const Scalar value =
+      loss_and_output_gradient<Scalar>(loss, outputs_, batch.targets, std::span<Scalar>(w.d_head.data(), nb * outputs));
   std::fill(gradients_.begin(), gradients_.end(), Scalar(0));
 
   // Head: y = x̃ W^T + b, x̃ = h_T ⊙ output mask.
@@ -672,7 +691,8 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
           if (mask != nullptr) {
             // A padded step copies c_{t−1} to c_t: its cell gradient passes through unchanged.
             for (std::size_t b = 0; b < nb; ++b) {
-              if (mask[t * nb + b] == 0) w.dc.row(static_cast<Eigen::Index>(b)) = w.carry_c.row(static_cast<Eigen::Index>(b));
+              if (mask[t * nb + b] == 0)
+                w.dc.row(static_cast<Eigen::Index>(b)) = w.carry_c.row(static_cast<Eigen::Index>(b));
             }
           }
           da.rightCols(eh).array() = w.dh.array() * w.carry_h.array() * og * (Scalar(1) - og);
@@ -718,7 +738,8 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
       }
       if (mask != nullptr) {
         for (std::size_t b = 0; b < nb; ++b) {
-          if (mask[t * nb + b] == 0) w.carry_h.row(static_cast<Eigen::Index>(b)) = w.dh.row(static_cast<Eigen::Index>(b));
+          if (mask[t * nb + b] == 0)
+            w.carry_h.row(static_cast<Eigen::Index>(b)) = w.dh.row(static_cast<Eigen::Index>(b));
         }
       }
     }
@@ -747,7 +768,8 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
     if (li == 0 && s > 0) {
       ensure(w.static_gate_sums, nb, gh);
       w.static_gate_sums.setZero();
-      for (std::size_t t = 0; t < steps; ++t) w.static_gate_sums += w.d_pre.middleRows(static_cast<Eigen::Index>(t * nb), eb);
+      for (std::size_t t = 0; t < steps; ++t)
+        w.static_gate_sums += w.d_pre.middleRows(static_cast<Eigen::Index>(t * nb), eb);
       CMap statics(batch.statics.data(), eb, static_cast<Eigen::Index>(s));
       MapM(gradients_.data() + w.static_weights, egh, static_cast<Eigen::Index>(s)).noalias() =
           w.static_gate_sums.transpose() * statics;

@@ -56,12 +56,12 @@ enum class DropoutMode {
 struct NetworkOptions {
   CellType cell = CellType::lstm;
   ElmanActivation elman_activation = ElmanActivation::tanh;  ///< used only when cell == elman
-  std::size_t input_size = 1;   ///< dynamic inputs per time step (D), >= 1
-  std::size_t static_size = 0;  ///< static inputs (site attributes) fed to layer 0 at every step
+  std::size_t input_size = 1;                                ///< dynamic inputs per time step (D), >= 1
+  std::size_t static_size = 0;   ///< static inputs (site attributes) fed to layer 0 at every step
   std::size_t hidden_size = 64;  ///< H, same for every layer, >= 1
   std::size_t layers = 1;        ///< stacked recurrent layers, >= 1
   HeadType head = HeadType::point;
-  std::size_t horizon = 1;  ///< lead times predicted from the last state (1 = sequence-to-one), >= 1
+  std::size_t horizon = 1;              ///< lead times predicted from the last state (1 = sequence-to-one), >= 1
   std::vector<double> quantile_levels;  ///< strictly increasing in (0,1); required for HeadType::quantile
   /// Dropout probabilities in [0,1): on layer-0 dynamic inputs, on the recurrent state entering U h_prev, and on
   /// each layer's output (into the next layer, and into the head).
