@@ -53,6 +53,7 @@ void write_results_hdf5(const std::filesystem::path& path, const RunResults& res
     file.attr_string(root, "test_period", results.test_period);
     file.write_int64s(root, "leads", results.leads);
     file.write_strings(root, "warnings", results.warnings);
+    file.write_strings(root, "notes", results.notes);
 
     {
       H5Handle sites = file.create_group(root, "sites");
@@ -204,6 +205,7 @@ RunResults read_results_hdf5(const std::filesystem::path& path) {
   results.test_period = file.read_attr_string(root, "test_period");
   results.leads = file.read_int64s(root, "leads");
   results.warnings = file.read_strings(root, "warnings");
+  results.notes = file.read_strings(root, "notes");
 
   {
     H5Handle sites = file.open_group(root, "sites");

@@ -258,6 +258,183 @@ std::vector<io::MetricRow> score_results(const io::RunResults& results, const Jo
   return rows;
 }
 
+// ---------------------------------------------------------------------------------------------------------------
+// Case sets: one site's forecasts on one period, case = row * leads + lead, quantiles case-major.
+// ---------------------------------------------------------------------------------------------------------------
+
+struct CaseSet {
+  std::vector<std::size_t> issues;  // rows
+  std::vector<double> observed;     // rows × leads
+  std::vector<double> mean;         // rows × leads
+  std::vector<double> median;       // rows × leads
+  std::vector<double> quantiles;    // rows × leads × levels
+  std::size_t rows() const { return issues.size(); }
+};
+
+// Splits distributions of windows (ordered by site, then issue) into one CaseSet per site.
+void split_by_site(std::span<const data::Window> windows, const detail::CaseDistributions& dist,
+                   const data::FeatureTable& table, const data::WindowOptions& options, std::size_t leads,
+                   std::vector<CaseSet>& out) {
+  const std::size_t levels = dist.levels.size();
+  for (std::size_t i = 0; i < windows.size(); ++i) {
+    CaseSet& set = out[windows[i].site];
+    set.issues.push_back(windows[i].issue);
+    for (std::size_t k = 0; k < leads; ++k) {
+      const std::size_t c = i * leads + k;
+      set.observed.push_back(table.observed_target(windows[i].site, target_step(options, windows[i].issue, k)));
+      set.mean.push_back(dist.mean[c]);
+      set.median.push_back(dist.median[c]);
+      set.quantiles.insert(set.quantiles.end(), dist.quantiles.begin() + static_cast<std::ptrdiff_t>(c * levels),
+                           dist.quantiles.begin() + static_cast<std::ptrdiff_t>((c + 1) * levels));
+    }
+  }
+}
+
+// Calibrates every central interval of the `test` sets in place: CQR (Romano et al. 2019) on the interval bounds,
+// fitted per lead on the pooled `calibration` sets; with CalibrationMethod::adaptive, then adaptive conformal
+// inference (Gibbs & Candès 2021) through each site's test period in issue order, an outcome being used only once
+// it is observed (lead steps after the issue). Returns false when there was nothing to calibrate on.
+bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& calibration,
+                    const std::vector<CaseSet*>& test, std::size_t leads) {
+  const std::size_t levels = job.quantiles.size();
+  std::vector<double> observed;
+  std::vector<std::size_t> lead_of_case;
+  std::vector<const CaseSet*> cal_sets;
+  for (const CaseSet* set : calibration) {
+    if (set == nullptr) continue;
+    cal_sets.push_back(set);
+    for (std::size_t c = 0; c < set->observed.size(); ++c) {
+      observed.push_back(set->observed[c]);
+      lead_of_case.push_back(c % leads);
+    }
+  }
+  std::vector<bool> seen_lead(leads, false);
+  for (std::size_t c = 0; c < observed.size(); ++c) seen_lead[lead_of_case[c]] = seen_lead[lead_of_case[c]] || std::isfinite(observed[c]);
+  if (std::find(seen_lead.begin(), seen_lead.end(), false) != seen_lead.end()) return false;
+  for (double coverage : job.intervals) {
+    const std::size_t lo = level_position(job.quantiles, (1 - coverage) / 2);
+    const std::size_t hi = level_position(job.quantiles, (1 + coverage) / 2);
+    std::vector<double> lower, upper;
+    for (const CaseSet* set : cal_sets) {
+      for (std::size_t c = 0; c < set->observed.size(); ++c) {
+        lower.push_back(set->quantiles[c * levels + lo]);
+        upper.push_back(set->quantiles[c * levels + hi]);
+      }
+    }
+    uncertainty::CalibrationSet data;
+    data.observed = observed;
+    data.lower = lower;
+    data.upper = upper;
+    data.lead = lead_of_case;
+    uncertainty::ConformalOptions conformal;
+    conformal.score = uncertainty::ConformalScore::quantile_pair;
+    conformal.miscoverage = 1 - coverage;
+    conformal.per_lead = true;
+    const auto calibrator = uncertainty::Calibrator::fit(data, conformal);
+    for (CaseSet* set : test) {
+      if (job.calibration == CalibrationMethod::split_conformal) {
+        for (std::size_t c = 0; c < set->observed.size(); ++c) {
+          const auto interval =
+              calibrator.quantile_interval(set->quantiles[c * levels + lo], set->quantiles[c * levels + hi], c % leads);
+          set->quantiles[c * levels + lo] = interval.lower;
+          set->quantiles[c * levels + hi] = interval.upper;
+        }
+        continue;
+      }
+      for (std::size_t k = 0; k < leads; ++k) {
+        std::vector<double> scores;
+        for (std::size_t c = k; c < observed.size(); c += leads) {
+          scores.push_back(uncertainty::quantile_pair_score(lower[c], upper[c], observed[c]));
+        }
+        uncertainty::AdaptiveOptions adaptive;
+        adaptive.score = uncertainty::ConformalScore::quantile_pair;
+        adaptive.miscoverage = 1 - coverage;
+        adaptive.step_size = job.adaptive_step;
+        uncertainty::AdaptiveConformal aci(adaptive, scores);
+        struct Pending {
+          std::size_t due;
+          double lower, upper, observed;
+        };
+        std::vector<Pending> pending;
+        for (std::size_t row = 0; row < set->rows(); ++row) {
+          const std::size_t issue = set->issues[row];
+          std::erase_if(pending, [&](const Pending& p) {
+            if (p.due > issue) return false;
+            if (std::isfinite(p.observed)) {
+              aci.update(p.observed >= p.lower && p.observed <= p.upper,
+                         uncertainty::quantile_pair_score(p.lower, p.upper, p.observed));
+            }
+            return true;
+          });
+          const std::size_t c = row * leads + k;
+          const double raw_lo = set->quantiles[c * levels + lo];
+          const double raw_hi = set->quantiles[c * levels + hi];
+          const auto interval = aci.quantile_interval(raw_lo, raw_hi);
+          set->quantiles[c * levels + lo] = interval.lower;
+          set->quantiles[c * levels + hi] = interval.upper;
+          const std::size_t due = job.windows.mode == data::WindowMode::forecast ? issue + 1 + k : issue;
+          pending.push_back({due, raw_lo, raw_hi, set->observed[c]});
+        }
+      }
+    }
+  }
+  for (CaseSet* set : test) repair_crossing(set->quantiles, levels);
+  return true;
+}
+
+io::ForecastBlock block_from_set(const std::string& method, const CaseSet& set, const std::vector<double>& levels) {
+  io::ForecastBlock b;
+  b.method = method;
+  b.quantile_levels = levels;
+  b.mean.assign(set.mean.begin(), set.mean.end());
+  b.median.assign(set.median.begin(), set.median.end());
+  b.quantiles.assign(set.quantiles.begin(), set.quantiles.end());
+  return b;
+}
+
+CaseSet set_from_block(const io::SiteResults& site, const io::ForecastBlock& block, const data::TimeAxis& axis) {
+  CaseSet set;
+  for (auto t : site.issue_times) set.issues.push_back(static_cast<std::size_t>(axis.index_of(t)));
+  set.observed.assign(site.observed.begin(), site.observed.end());
+  set.mean.assign(block.mean.begin(), block.mean.end());
+  set.median.assign(block.median.begin(), block.median.end());
+  set.quantiles.assign(block.quantiles.begin(), block.quantiles.end());
+  return set;
+}
+
+// Mean pinball loss over the levels (a discretisation of the CRPS) of the cases of lead k with an observation.
+double mean_pinball(const CaseSet& set, const std::vector<double>& levels, std::size_t leads, std::size_t k) {
+  double total = 0.0;
+  std::size_t count = 0;
+  for (std::size_t c = k; c < set.observed.size(); c += leads) {
+    const double y = set.observed[c];
+    if (!std::isfinite(y)) continue;
+    double sum = 0.0;
+    bool ok = true;
+    for (std::size_t q = 0; q < levels.size(); ++q) {
+      const double v = set.quantiles[c * levels.size() + q];
+      if (!std::isfinite(v)) ok = false;
+      sum += (y - v) * (levels[q] - (y < v ? 1.0 : 0.0));
+    }
+    if (!ok) continue;
+    total += sum / static_cast<double>(levels.size());
+    ++count;
+  }
+  return count ? total / static_cast<double>(count) : INFINITY;
+}
+
+// w · a + (1 − w) · b for lead k of every row (quantile averaging keeps the quantiles ordered).
+void blend_lead(const CaseSet& a, const CaseSet& b, double w, std::size_t leads, std::size_t k, std::size_t levels,
+                CaseSet& out) {
+  for (std::size_t c = k; c < a.observed.size(); c += leads) {
+    out.mean[c] = w * a.mean[c] + (1 - w) * b.mean[c];
+    out.median[c] = w * a.median[c] + (1 - w) * b.median[c];
+    for (std::size_t q = 0; q < levels; ++q) {
+      out.quantiles[c * levels + q] = w * a.quantiles[c * levels + q] + (1 - w) * b.quantiles[c * levels + q];
+    }
+  }
+}
+
 std::string now_iso() {
   const auto seconds = std::chrono::duration_cast<std::chrono::seconds>(
                            std::chrono::system_clock::now().time_since_epoch())
@@ -368,10 +545,10 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   const auto all_calibration = calibration_range.empty()
                                    ? std::vector<data::Window>{}
                                    : data::make_windows(table, job.windows, calibration_range, true);
-  std::vector<io::ForecastBlock> network_blocks;
-  for (std::size_t s = 0; s < site_count; ++s) {
-    network_blocks.push_back(make_block(network_method_name, cases[s].issues.size(), leads, job.quantiles));
-  }
+  // The selection period chooses the final forecast's combination: validation, else calibration.
+  const auto& all_selection = all_validation.empty() ? all_calibration : all_validation;
+  std::vector<CaseSet> raw_test(site_count), raw_selection(site_count), raw_calibration(site_count);
+  std::vector<io::ForecastBlock> member_blocks(site_count);
   RunSummary summary;
   // Checkpoints for --resume: one results file per finished model, valid only for the same job text, seed and
   // input files (the fingerprint), removed when the run completes.
@@ -392,8 +569,15 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     report("training", "model " + model_name, m, models.size());
     if (run_options.resume && std::filesystem::exists(checkpoint_path(m))) {
       const io::RunResults done = io::read_results_hdf5(checkpoint_path(m));
-      if (done.summary == fingerprint && done.sites.size() == model_sites.size()) {
-        for (std::size_t i = 0; i < model_sites.size(); ++i) network_blocks[model_sites[i]] = done.sites[i].methods.at(0);
+      if (done.summary == fingerprint && done.sites.size() == 3 * model_sites.size()) {
+        for (std::size_t i = 0; i < model_sites.size(); ++i) {
+          const std::size_t s = model_sites[i];
+          raw_test[s] = set_from_block(done.sites[3 * i], done.sites[3 * i].methods.at(0), axis);
+          raw_selection[s] = set_from_block(done.sites[3 * i + 1], done.sites[3 * i + 1].methods.at(0), axis);
+          raw_calibration[s] = set_from_block(done.sites[3 * i + 2], done.sites[3 * i + 2].methods.at(0), axis);
+          member_blocks[s].member_count = done.sites[3 * i].methods.at(0).member_count;
+          member_blocks[s].members = done.sites[3 * i].methods.at(0).members;
+        }
         for (const auto& record : done.training) {
           results.training.push_back(record);
           results.provenance.seeds.push_back(record.seed);
@@ -450,147 +634,94 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
       results.provenance.seeds.push_back(member.seed);
     }
 
-    // Test-period predictions.
+    // Raw (uncalibrated) network distributions on the test, selection and calibration periods, per site.
     detail::WindowSource test(table, job.windows, select(all_test, model_sites));
-    if (test.size() == 0) continue;
-    const auto test_members = ensemble.predict(test, job.seed + 17);
-    auto test_dist = detail::to_target_units(test_members, table, test.windows(), leads, job.quantiles,
-                                             job.keep_members);
-
-    // Calibration of every central interval on the calibration period (CQR on the interval bounds).
-    if (job.calibration != CalibrationMethod::none) {
-      detail::WindowSource calibration(table, job.windows, select(all_calibration, model_sites));
-      if (calibration.size() == 0) {
-        results.warnings.push_back("model " + model_name + ": no calibration window with an observed target; "
-                                   "intervals left uncalibrated");
-      } else {
-        const auto cal_members = ensemble.predict(calibration, job.seed + 29);
-        const auto cal_dist =
-            detail::to_target_units(cal_members, table, calibration.windows(), leads, job.quantiles, false);
-        std::vector<double> observed, cal_lead;
-        std::vector<std::size_t> lead_of_case;
-        for (std::size_t c = 0; c < cal_dist.cases; ++c) {
-          const auto& w = calibration.windows()[c / leads];
-          observed.push_back(table.observed_target(w.site, target_step(job.windows, w.issue, c % leads)));
-          lead_of_case.push_back(c % leads);
-        }
-        for (double coverage : job.intervals) {
-          const std::size_t lo = level_position(job.quantiles, (1 - coverage) / 2);
-          const std::size_t hi = level_position(job.quantiles, (1 + coverage) / 2);
-          std::vector<double> lower, upper;
-          for (std::size_t c = 0; c < cal_dist.cases; ++c) {
-            lower.push_back(cal_dist.quantiles[c * level_count + lo]);
-            upper.push_back(cal_dist.quantiles[c * level_count + hi]);
-          }
-          uncertainty::CalibrationSet set;
-          set.observed = observed;
-          set.lower = lower;
-          set.upper = upper;
-          set.lead = lead_of_case;
-          uncertainty::ConformalOptions conformal;
-          conformal.score = uncertainty::ConformalScore::quantile_pair;
-          conformal.miscoverage = 1 - coverage;
-          conformal.per_lead = true;
-          const auto calibrator = uncertainty::Calibrator::fit(set, conformal);
-          if (job.calibration == CalibrationMethod::split_conformal) {
-            for (std::size_t c = 0; c < test_dist.cases; ++c) {
-              const auto interval = calibrator.quantile_interval(test_dist.quantiles[c * level_count + lo],
-                                                                 test_dist.quantiles[c * level_count + hi], c % leads);
-              test_dist.quantiles[c * level_count + lo] = interval.lower;
-              test_dist.quantiles[c * level_count + hi] = interval.upper;
-            }
-          } else {
-            // Adaptive conformal inference (Gibbs & Candès 2021) per site and lead, through the test period in
-            // issue order, started from the calibration scores of that lead. An outcome is known `lead` steps
-            // after the issue; the update uses it then, so no interval sees its own observation.
-            for (std::size_t k = 0; k < leads; ++k) {
-              std::vector<double> scores;
-              for (std::size_t c = k; c < cal_dist.cases; c += leads) {
-                scores.push_back(uncertainty::quantile_pair_score(lower[c], upper[c], observed[c]));
-              }
-              uncertainty::AdaptiveOptions adaptive;
-              adaptive.score = uncertainty::ConformalScore::quantile_pair;
-              adaptive.miscoverage = 1 - coverage;
-              adaptive.step_size = job.adaptive_step;
-              for (std::size_t s : model_sites) {
-                uncertainty::AdaptiveConformal aci(adaptive, scores);
-                struct Pending {
-                  std::size_t due;  // step at which the observation is known
-                  double lower, upper, observed;
-                };
-                std::vector<Pending> pending;
-                for (std::size_t c = k; c < test_dist.cases; c += leads) {
-                  const auto& w = test.windows()[c / leads];
-                  if (w.site != s) continue;
-                  // Apply outcomes that are known by this issue time.
-                  std::erase_if(pending, [&](const Pending& p) {
-                    if (p.due > w.issue) return false;
-                    if (std::isfinite(p.observed)) {
-                      aci.update(p.observed >= p.lower && p.observed <= p.upper,
-                                 uncertainty::quantile_pair_score(p.lower, p.upper, p.observed));
-                    }
-                    return true;
-                  });
-                  const double raw_lo = test_dist.quantiles[c * level_count + lo];
-                  const double raw_hi = test_dist.quantiles[c * level_count + hi];
-                  const auto interval = aci.quantile_interval(raw_lo, raw_hi);
-                  test_dist.quantiles[c * level_count + lo] = interval.lower;
-                  test_dist.quantiles[c * level_count + hi] = interval.upper;
-                  const std::size_t step = target_step(job.windows, w.issue, k);
-                  pending.push_back({step, raw_lo, raw_hi, table.observed_target(s, step)});
-                }
-              }
+    if (test.size() > 0) {
+      const auto dist = detail::to_target_units(ensemble.predict(test, job.seed + 17), table, test.windows(), leads,
+                                                job.quantiles, job.keep_members);
+      split_by_site(test.windows(), dist, table, job.windows, leads, raw_test);
+      if (dist.member_count > 0) {
+        std::vector<std::size_t> position(site_count, 0);
+        for (std::size_t i = 0; i < test.windows().size(); ++i) {
+          const std::size_t site = test.windows()[i].site;
+          auto& block = member_blocks[site];
+          block.member_count = dist.member_count;
+          block.members.resize(cases[site].issues.size() * leads * dist.member_count);
+          const std::size_t row = position[site]++;
+          for (std::size_t k = 0; k < leads; ++k) {
+            for (std::size_t j = 0; j < dist.member_count; ++j) {
+              block.members[(row * leads + k) * dist.member_count + j] =
+                  static_cast<float>(dist.members[(i * leads + k) * dist.member_count + j]);
             }
           }
         }
-        repair_crossing(test_dist.quantiles, level_count);
       }
     }
-
-    // Into the per-site blocks (test windows are ordered by site, then issue, like cases[s].issues).
-    std::vector<std::size_t> position(site_count, 0);
-    for (std::size_t i = 0; i < test.windows().size(); ++i) {
-      const auto& w = test.windows()[i];
-      const std::size_t row = position[w.site]++;
-      auto& block = network_blocks[w.site];
-      for (std::size_t k = 0; k < leads; ++k) {
-        const std::size_t c = i * leads + k;
-        block.mean[row * leads + k] = static_cast<float>(test_dist.mean[c]);
-        block.median[row * leads + k] = static_cast<float>(test_dist.median[c]);
-        for (std::size_t q = 0; q < level_count; ++q) {
-          block.quantiles[(row * leads + k) * level_count + q] =
-              static_cast<float>(test_dist.quantiles[c * level_count + q]);
-        }
-      }
-      if (test_dist.member_count > 0) {
-        block.member_count = test_dist.member_count;
-        block.members.resize(cases[w.site].issues.size() * leads * block.member_count);
-        for (std::size_t k = 0; k < leads; ++k) {
-          for (std::size_t j = 0; j < block.member_count; ++j) {
-            block.members[(row * leads + k) * block.member_count + j] =
-                static_cast<float>(test_dist.members[(i * leads + k) * block.member_count + j]);
-          }
-        }
-      }
+    for (auto* period : {&raw_selection, &raw_calibration}) {
+      const auto& windows = period == &raw_selection ? all_selection : all_calibration;
+      detail::WindowSource source(table, job.windows, select(windows, model_sites));
+      if (source.size() == 0) continue;
+      const auto dist = detail::to_target_units(ensemble.predict(source, job.seed + (period == &raw_selection ? 23 : 29)),
+                                                table, source.windows(), leads, job.quantiles, false);
+      split_by_site(source.windows(), dist, table, job.windows, leads, *period);
     }
     io::RunResults checkpoint;
     checkpoint.summary = fingerprint;
     checkpoint.mode = results.mode;
     checkpoint.leads = results.leads;
+    // Per site: the test entry (raw network block, members), then its selection and calibration entries.
     for (std::size_t s : model_sites) {
-      io::SiteResults site = results.sites[s];
-      site.methods = {network_blocks[s]};
-      checkpoint.sites.push_back(std::move(site));
+      for (int part = 0; part < 3; ++part) {
+        const CaseSet& set = part == 0 ? raw_test[s] : (part == 1 ? raw_selection[s] : raw_calibration[s]);
+        io::SiteResults site;
+        site.site = panel.sites()[s];
+        site.site.id += part == 0 ? "" : (part == 1 ? "#selection" : "#calibration");
+        for (std::size_t issue : set.issues) site.issue_times.push_back(axis.time_at(issue));
+        site.observed.assign(set.observed.begin(), set.observed.end());
+        io::ForecastBlock block = block_from_set("network_raw", set, job.quantiles);
+        if (part == 0) {
+          block.member_count = member_blocks[s].member_count;
+          block.members = member_blocks[s].members;
+        }
+        site.methods = {std::move(block)};
+        checkpoint.sites.push_back(std::move(site));
+      }
     }
     checkpoint.training.assign(results.training.begin() + static_cast<std::ptrdiff_t>(records_before),
                                results.training.end());
     io::write_results_hdf5(checkpoint_path(m), checkpoint);
   }
   report("training", "", models.size(), models.size());
-  for (std::size_t s = 0; s < site_count; ++s) results.sites[s].methods.push_back(std::move(network_blocks[s]));
+  // Network intervals calibrated per model (pooled over the model's sites, per lead).
+  std::vector<CaseSet> network_test = raw_test;
+  if (job.calibration != CalibrationMethod::none) {
+    for (const auto& model_sites : models) {
+      std::vector<const CaseSet*> calibration;
+      std::vector<CaseSet*> test;
+      for (std::size_t s : model_sites) {
+        calibration.push_back(&raw_calibration[s]);
+        test.push_back(&network_test[s]);
+      }
+      if (!calibrate_sets(job, calibration, test, leads)) {
+        results.warnings.push_back("network: no calibration case with an observed target for every lead; its "
+                                   "intervals are left uncalibrated");
+      }
+    }
+  }
+  for (std::size_t s = 0; s < site_count; ++s) {
+    if (network_test[s].rows() != cases[s].issues.size()) continue;  // no network at this site
+    io::ForecastBlock block = block_from_set(network_method_name, network_test[s], job.quantiles);
+    block.member_count = member_blocks[s].member_count;
+    block.members = std::move(member_blocks[s].members);
+    results.sites[s].methods.push_back(std::move(block));
+  }
 
   // ---- Baselines, per site, on the same cases -------------------------------------------------------------------
   std::vector<double> mase_scales(site_count, NAN);
+  // Baseline forecasts on the selection and calibration cases of the network, for the final combination.
+  std::vector<std::vector<std::pair<CaseSet, CaseSet>>> baseline_sets(site_count);
+  std::vector<std::vector<CaseSet>> baseline_tests(site_count);
+  std::vector<std::vector<std::string>> baseline_names(site_count);
   for (std::size_t s = 0; s < site_count; ++s) {
     report("baselines", panel.sites()[s].id, s, site_count);
     std::vector<double> target(axis.length());
@@ -643,6 +774,37 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
             }
           }
         }
+        // The same method on the selection and calibration cases (for the final forecast).
+        auto on_cases = [&](const CaseSet& like) {
+          CaseSet out = like;
+          std::vector<std::size_t> at;
+          for (std::size_t issue : like.issues) {
+            at.push_back(job.windows.mode == data::WindowMode::forecast ? issue : issue - 1);
+          }
+          if (at.empty()) return out;
+          const auto p = forecaster->forecast(series, at, leads);
+          const auto q = baselines::forecast_quantiles(*forecaster, series, at, leads, job.quantiles, calibration);
+          for (std::size_t i = 0; i < at.size(); ++i) {
+            for (std::size_t k = 0; k < leads; ++k) {
+              const std::size_t c = i * leads + k;
+              out.mean[c] = p.value(i, k);
+              out.median[c] = median < level_count ? q.value(i, k, median) : p.value(i, k);
+              for (std::size_t l = 0; l < level_count; ++l) out.quantiles[c * level_count + l] = q.value(i, k, l);
+            }
+          }
+          return out;
+        };
+        if (raw_selection[s].rows() > 0 && raw_calibration[s].rows() > 0 && raw_test[s].rows() == issues.size()) {
+          baseline_sets[s].emplace_back(on_cases(raw_selection[s]), on_cases(raw_calibration[s]));
+          CaseSet test_set = raw_test[s];
+          for (std::size_t c = 0; c < test_set.mean.size(); ++c) {
+            test_set.mean[c] = block.mean[c];
+            test_set.median[c] = block.median[c];
+          }
+          for (std::size_t c = 0; c < test_set.quantiles.size(); ++c) test_set.quantiles[c] = block.quantiles[c];
+          baseline_tests[s].push_back(std::move(test_set));
+          baseline_names[s].push_back(name);
+        }
         results.sites[s].methods.push_back(std::move(block));
       } catch (const Error& e) {
         results.warnings.push_back("site " + panel.sites()[s].id + ", baseline " + name + ": " + e.what() +
@@ -651,6 +813,48 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     }
   }
   report("baselines", "", site_count, site_count);
+
+  // ---- The final forecast: the network combined with the best baseline -----------------------------------------
+  // Forecast combination (Bates & Granger 1969) by quantile averaging: per site and lead, the weight w of the
+  // network (0, 0.1, ..., 1) and the partner baseline minimising the mean pinball loss on the selection period
+  // (validation, else calibration); then the same interval calibration as the network. w = 1 is the network alone,
+  // w = 0 the baseline alone, so the final forecast is never chosen worse than either on the selection period.
+  for (std::size_t s = 0; s < site_count && !job.baselines.empty(); ++s) {
+    if (baseline_sets[s].empty()) continue;
+    CaseSet final_test = raw_test[s];
+    CaseSet final_calibration = raw_calibration[s];
+    std::string choice;
+    for (std::size_t k = 0; k < leads; ++k) {
+      double best = mean_pinball(raw_selection[s], job.quantiles, leads, k);
+      std::size_t best_b = 0;
+      double best_w = 1.0;
+      for (std::size_t b = 0; b < baseline_sets[s].size(); ++b) {
+        CaseSet blended = raw_selection[s];
+        for (int step = 0; step < 10; ++step) {
+          const double w = step / 10.0;
+          blend_lead(raw_selection[s], baseline_sets[s][b].first, w, leads, k, level_count, blended);
+          const double score = mean_pinball(blended, job.quantiles, leads, k);
+          if (score < best) {
+            best = score;
+            best_b = b;
+            best_w = w;
+          }
+        }
+      }
+      blend_lead(raw_test[s], baseline_tests[s][best_b], best_w, leads, k, level_count, final_test);
+      blend_lead(raw_calibration[s], baseline_sets[s][best_b].second, best_w, leads, k, level_count,
+                 final_calibration);
+      char text[160];
+      std::snprintf(text, sizeof text, "%slead %lld: %.1f network + %.1f %s", k ? "; " : "",
+                    static_cast<long long>(results.leads[k]), best_w, 1 - best_w, baseline_names[s][best_b].c_str());
+      choice += text;
+    }
+    if (job.calibration != CalibrationMethod::none) {
+      calibrate_sets(job, {&final_calibration}, {&final_test}, leads);
+    }
+    results.sites[s].methods.push_back(block_from_set(final_method_name, final_test, job.quantiles));
+    results.notes.push_back("site " + panel.sites()[s].id + ", final forecast: " + choice);
+  }
 
   // ---- Scoring ---------------------------------------------------------------------------------------------------
   report("scoring", "", 0, 1);
@@ -706,6 +910,12 @@ std::string RunSummary::brief_report() const {
       << " model(s) trained";
   if (models_resumed) out << ", " << models_resumed << " resumed";
   out << ", " << seconds << " s\n";
+  // Notes are per site; on large runs they stay in results.h5 (/notes) and the report.
+  if (results.notes.size() <= 5) {
+    for (const auto& n : results.notes) out << "note: " << n << "\n";
+  } else {
+    out << results.notes.size() << " notes (the final forecast's weights per site) are in results.h5 /notes\n";
+  }
   for (const auto& w : results.warnings) out << "warning: " << w << "\n";
   for (const auto& path : outputs) out << "wrote " << path.string() << "\n";
   return out.str();

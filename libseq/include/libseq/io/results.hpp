@@ -102,6 +102,7 @@ struct RunResults {
   std::vector<MetricRow> metrics;
   std::vector<TrainingRecord> training;
   std::vector<std::string> warnings; ///< expected outcomes worth telling (skipped sites, diverged members)
+  std::vector<std::string> notes;    ///< choices the run made (e.g. the final forecast's combination weights)
   Provenance provenance;
 
   /// @throws libseq::DataError naming the site and method when an array has the wrong length.

@@ -58,4 +58,7 @@ RunSummary run_job(const JobConfig& job, const RunOptions& options = {});
 /// The method name the network ensemble's forecasts carry in results ("network").
 inline constexpr const char* network_method_name = "network";
 
+/// The method name of the final forecast: the network combined with the best baseline ("final").
+inline constexpr const char* final_method_name = "final";
+
 }  // namespace libseq::pipeline
