@@ -28,4 +28,12 @@ if(TARGET runnel)
                    ${runnel_tiny_dir}/tiny-output)
   set_tests_properties(outputs_results_h5_h5py outputs_hindcasts_nc_xarray outputs_gdalinfo_ogrinfo PROPERTIES
                        FIXTURES_REQUIRED runnel_tiny_outputs LABELS validation TIMEOUT 120)
+
+  # Two writer bugs found by these checks (tests/outputs/check_known_bugs.py says which); disabled so the suite
+  # stays green until they are fixed, then enabled by removing DISABLED.
+  add_test(NAME outputs_known_writer_bugs
+           COMMAND ${runnel_checker_python} ${PROJECT_SOURCE_DIR}/tests/outputs/check_known_bugs.py
+                   ${runnel_tiny_dir}/tiny-output)
+  set_tests_properties(outputs_known_writer_bugs PROPERTIES FIXTURES_REQUIRED runnel_tiny_outputs LABELS validation
+                       DISABLED TRUE)
 endif()
