@@ -2,10 +2,13 @@
 // Private pieces of the batch job shared by run.cpp and the operational forecast: the window source that feeds the
 // trainer from a FeatureTable, and turning ensemble members into quantiles in target units.
 
+#include <filesystem>
 #include <span>
+#include <string>
 #include <vector>
 
 #include "libseq/data/windows.hpp"
+#include "libseq/io/read_options.hpp"
 #include "libseq/nn/network.hpp"
 #include "libseq/train/sequence_source.hpp"
 #include "libseq/pipeline/job.hpp"
@@ -56,5 +59,14 @@ uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const da
 
 /// Seed of the resamples of model `model` (0-based) of a job: distinct per model, fixed by the job seed.
 std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model);
+
+/// Reads every file with `read` and joins their sites (the operational forecast's reader; the same joining rules as
+/// the batch job's). Files must share the time axis and the variables read, and hold distinct sites.
+/// @throws libseq::DataError naming the file that differs, or when no site has data; what io::read_panel throws.
+data::Panel read_joined_panel(const std::vector<std::filesystem::path>& files, const io::ReadOptions& read,
+                              std::vector<std::string>& warnings);
+
+/// Sorts each case's `width` quantiles (NaN last) so that calibrated bounds never cross (as the batch job does).
+void sort_case_quantiles(std::vector<double>& quantiles, std::size_t width);
 
 }  // namespace libseq::pipeline::detail

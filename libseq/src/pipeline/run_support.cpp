@@ -1,6 +1,9 @@
 #include <algorithm>
 #include <cmath>
+#include <optional>
 
+#include "libseq/error.hpp"
+#include "libseq/io/reader.hpp"
 #include "run_impl.hpp"
 
 namespace libseq::pipeline::detail {
@@ -102,6 +105,57 @@ uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const da
 
 std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model) {
   return uncertainty::member_seed(job_seed, 1000003 * (model + 1));
+}
+
+data::Panel read_joined_panel(const std::vector<std::filesystem::path>& files, const io::ReadOptions& read,
+                              std::vector<std::string>& warnings) {
+  std::optional<data::Panel> joined;
+  for (const auto& file : files) {
+    io::ReadResult result = io::read_panel(file, read);
+    for (auto& w : result.warnings) warnings.push_back(std::move(w));
+    if (!joined) {
+      joined = std::move(result.panel);
+      continue;
+    }
+    const data::Panel& next = result.panel;
+    if (!(next.axis() == joined->axis())) {
+      throw DataError(file.string() + ": time axis " + data::format_iso8601(next.axis().start()) + " step " +
+                      next.axis().describe_step() + " differs from the first file's; files read together must "
+                      "share the time axis");
+    }
+    if (next.variable_count() != joined->variable_count()) {
+      throw DataError(file.string() + ": has other variables than the first file");
+    }
+    std::vector<data::SiteInfo> sites = joined->sites();
+    for (const auto& s : next.sites()) {
+      if (joined->find_site(s.id)) throw DataError(file.string() + ": site '" + s.id + "' is also in an earlier file");
+      sites.push_back(s);
+    }
+    data::Panel merged(joined->axis(), sites, joined->variables());
+    for (std::size_t s = 0; s < joined->site_count(); ++s) {
+      std::copy(joined->site_values(s).begin(), joined->site_values(s).end(), merged.site_values(s).begin());
+    }
+    for (std::size_t s = 0; s < next.site_count(); ++s) {
+      std::copy(next.site_values(s).begin(), next.site_values(s).end(),
+                merged.site_values(joined->site_count() + s).begin());
+    }
+    for (const auto& src : joined->sources()) merged.add_source(src);
+    for (const auto& src : next.sources()) merged.add_source(src);
+    joined = std::move(merged);
+  }
+  if (!joined || joined->site_count() == 0) throw DataError("no site with data in the files read");
+  if (joined->sources().empty()) {
+    for (const auto& f : files) joined->add_source(f.string());
+  }
+  return std::move(*joined);
+}
+
+void sort_case_quantiles(std::vector<double>& quantiles, std::size_t width) {
+  for (std::size_t c = 0; c + width <= quantiles.size(); c += width) {
+    std::sort(quantiles.begin() + static_cast<std::ptrdiff_t>(c),
+              quantiles.begin() + static_cast<std::ptrdiff_t>(c + width),
+              [](double a, double b) { return std::isnan(b) ? !std::isnan(a) : a < b; });
+  }
 }
 
 }  // namespace libseq::pipeline::detail
