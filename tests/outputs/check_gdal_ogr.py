@@ -10,9 +10,13 @@ Checks:
     2-D-or-more variable of a multi-variable file as a subdataset (GDAL netCDF driver documentation);
   * `ogrinfo -al -so stations.geojson` exits 0, reports "Feature Count: N" with N the number of sites of results.h5
     that have a latitude and longitude, "Geometry: Point" (or "3D Point" when an elevation is given), and lists the
-    fields site_id and network_nse (the pooled NSE of the network per site) among the layer's fields.
+    fields site_id and network_nse (the pooled NSE of the network per site) among the layer's fields;
+  * the GeoJSON parsed with Python's json module: every <method>_<metric> property of every feature equals the
+    results.h5 /metrics row of that site, method and metric with lead -1 (pooled over leads) to the 10
+    significant digits the writer prints (relative 1e-9), null where the value is NaN.
 Pass rule: every check holds; exit 1 naming the tool and the missing line otherwise.
 """
+import json
 import math
 import re
 import shutil
@@ -55,6 +59,11 @@ def main():
 
     with h5py.File(f"{out_dir}/results.h5", "r") as h5:
         lat, lon = h5["sites/latitude"][()], h5["sites/longitude"][()]
+        m = h5["metrics"]
+        decode = lambda column: [v.decode() if isinstance(v, bytes) else str(v) for v in m[column][()]]
+        pooled = {(s, f"{me}_{mt}"): v for s, me, mt, lead, v in
+                  zip(decode("site"), decode("method"), decode("metric"), m["lead"][()], m["value"][()])
+                  if lead == -1 and s != "*"}
     placed = sum(1 for y, x in zip(lat, lon) if math.isfinite(y) and math.isfinite(x))
 
     summary = run("ogrinfo", "-al", "-so", geojson_path)
@@ -68,6 +77,28 @@ def main():
         if not re.search(rf"^{field}: \w+", summary, re.M):
             fail(f"ogrinfo {geojson_path}: field {field} not listed\n{summary}")
     print(f"ok ogrinfo: exit 0, Feature Count {placed}, Point geometry, fields site_id, network_nse, persistence_crps")
+
+    with open(geojson_path, encoding="utf-8") as f:
+        collection = json.load(f)
+    compared = 0
+    for feature in collection["features"]:
+        site = feature["properties"]["site_id"]
+        for key, value in feature["properties"].items():
+            if key in ("site_id", "name", "elevation_m"):
+                continue
+            if (site, key) not in pooled:
+                fail(f"{geojson_path}: {site} property {key} has no pooled /metrics row in results.h5")
+            want = pooled[(site, key)]
+            if value is None:
+                if not math.isnan(want):
+                    fail(f"{geojson_path}: {site} {key} is null, results.h5 has {want}")
+            elif not abs(value - want) <= 1e-9 * abs(want):
+                fail(f"{geojson_path}: {site} {key} = {value}, results.h5 has {want}")
+            compared += 1
+    expected = sum(1 for (s, _) in pooled if s in {f["properties"]["site_id"] for f in collection["features"]})
+    if compared != expected:
+        fail(f"{geojson_path}: {compared} metric properties, results.h5 has {expected} pooled rows for these sites")
+    print(f"ok json: {compared} metric properties equal to the pooled /metrics rows of results.h5")
     print("PASS gdalinfo / ogrinfo")
 
 
