@@ -13,6 +13,10 @@
 #include "libseq/nn/network.hpp"
 #include "nn/network_fixtures.hpp"
 
+#if defined(__SSE__) || defined(__x86_64__)
+#include <xmmintrin.h>
+#endif
+
 namespace {
 
 using libseq::nn::CellType;
@@ -203,6 +207,20 @@ TEST(Dropout, McSamplesAreReproducibleFromTheSeedAndDifferBetweenSeeds) {
   EXPECT_NE(a, c);
   EXPECT_THROW(net.predict(batch, a, DropoutMode::sample, nullptr), libseq::ConfigError);
 }
+
+#if defined(__SSE__) || defined(__x86_64__)
+// The kernels flush subnormals during a call (see network.cpp); the caller's floating-point mode must come back.
+TEST(Network, RestoresTheCallersFloatingPointControlWord) {
+  const auto o = options_for(CellType::gru);
+  Network<float> net = libseq::test::random_network<float>(o, 1);
+  const auto batch = libseq::test::random_batch<float>(o, 4, 2, 2);
+  const unsigned int before = _mm_getcsr();
+  net.loss_and_gradient(batch, Loss{}, DropoutMode::off, nullptr);
+  std::vector<float> out(2 * o.horizon);
+  net.predict(batch, out, DropoutMode::off, nullptr);
+  EXPECT_EQ(_mm_getcsr(), before);
+}
+#endif
 
 TEST(NetworkOptions, ValidateListsEveryBrokenRule) {
   NetworkOptions o;
