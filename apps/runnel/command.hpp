@@ -21,5 +21,7 @@ Command add_inspect_command(CLI::App& root);
 Command add_init_command(CLI::App& root);
 Command add_run_command(CLI::App& root);
 Command add_report_command(CLI::App& root);
+Command add_fit_command(CLI::App& root);
+Command add_forecast_command(CLI::App& root);
 
 }  // namespace runnel_app

@@ -11,7 +11,6 @@
 
 namespace runnel_app {
 
-Command add_fit_command(CLI::App& root);
 
 Command add_fit_command(CLI::App& root) {
   auto* app = root.add_subcommand("fit",

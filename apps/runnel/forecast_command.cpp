@@ -11,7 +11,6 @@
 
 namespace runnel_app {
 
-Command add_forecast_command(CLI::App& root);
 
 Command add_forecast_command(CLI::App& root) {
   auto* app = root.add_subcommand("forecast",

@@ -14,7 +14,8 @@ int main(int argc, char** argv) {
   root.require_subcommand(1);
   root.set_version_flag("--version", "runnel " + libseq::version() + " (" + libseq::git_commit() + ")");
   std::vector<Command> commands{add_inspect_command(root), add_init_command(root), add_run_command(root),
-                                add_report_command(root)};
+                                add_report_command(root), add_fit_command(root),
+                                add_forecast_command(root)};
   try {
     root.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

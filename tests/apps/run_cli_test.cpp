@@ -187,12 +187,8 @@ TEST(CliRun, InputMissingFromTheFileExitsTwoNamingTheVariableAndTheFile) {
   EXPECT_TRUE(contains(r.err, "air_temperature")) << "the variables present are listed\n" << r.err;
 }
 
-// Disabled until the bug described in the report is fixed: run.hpp promises "ConfigError when periods or inputs do
-// not fit the data (all problems at once)", but load_panel (libseq/src/pipeline/run.cpp) hands the names to
-// io::read_panel, which throws a DataError at the first missing one (libseq/src/io/netcdf_reader.cpp, "not found by
-// name or standard_name") without the key, and a missing static input is reported separately later. Enable this
-// test with the fix.
-TEST(CliRun, DISABLED_InputsMissingFromTheFileAreReportedTogetherEachWithItsKey) {
+// run.hpp promises a ConfigError listing every input that does not fit the data, each with its key.
+TEST(CliRun, InputsMissingFromTheFileAreReportedTogetherEachWithItsKey) {
   const CliRun r = run_tiny("missing_inputs", {{"dynamic = [\"precipitation\", \"air_temperature\"]",
                                                 "dynamic = [\"precipitation\", \"snowfall\"]\nstatic = [\"depth_m\"]"}});
   EXPECT_EQ(r.exit_code, 2);

@@ -8,6 +8,8 @@
 #include <stdexcept>
 #include <string>
 
+#include <unistd.h>
+
 #ifndef RUNNEL_DEFAULT_SOURCE_DIR
 #define RUNNEL_DEFAULT_SOURCE_DIR ""
 #endif
@@ -36,9 +38,10 @@ inline std::filesystem::path binary_dir() { return env_path("RUNNEL_BINARY_DIR",
 /// The runnel executable (CLI tests).
 inline std::filesystem::path runnel_exe() { return env_path("RUNNEL_EXE", RUNNEL_DEFAULT_EXE); }
 
-/// A fresh scratch directory for one test, removed and re-created on each call.
+/// A fresh scratch directory for one test, removed and re-created on each call. The process id is part of the
+/// name: CTest runs the cases of one executable as parallel processes, which must not share a directory.
 inline std::filesystem::path scratch_dir(const std::string& name) {
-  auto dir = binary_dir() / "test-scratch" / name;
+  auto dir = binary_dir() / "test-scratch" / (name + "-" + std::to_string(::getpid()));
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);
   return dir;

@@ -117,6 +117,22 @@ void H5File::attr_int(hid_t object, const std::string& name, std::int64_t value)
   }
 }
 
+void H5File::attr_uint64(hid_t object, const std::string& name, std::uint64_t value) const {
+  H5Handle space(H5Screate(H5S_SCALAR), H5Sclose);
+  H5Handle attr(H5Acreate2(object, name.c_str(), H5T_STD_U64LE, space.get(), H5P_DEFAULT, H5P_DEFAULT), H5Aclose);
+  if (!attr.valid() || H5Awrite(attr.get(), H5T_NATIVE_UINT64, &value) < 0) {
+    fail("cannot write attribute '" + name + "'");
+  }
+}
+
+std::uint64_t H5File::read_attr_uint64(hid_t object, const std::string& name) const {
+  if (!has_attr(object, name)) throw FormatError(path_.string() + ": attribute '" + name + "' is missing");
+  H5Handle attr(H5Aopen(object, name.c_str(), H5P_DEFAULT), H5Aclose);
+  std::uint64_t value = 0;
+  if (H5Aread(attr.get(), H5T_NATIVE_UINT64, &value) < 0) fail("cannot read attribute '" + name + "'");
+  return value;
+}
+
 void H5File::attr_doubles(hid_t object, const std::string& name, const std::vector<double>& values) const {
   const hsize_t count = values.size();
   H5Handle space(values.size() == 1 ? H5Screate(H5S_SCALAR) : H5Screate_simple(1, &count, nullptr), H5Sclose);

@@ -55,10 +55,12 @@ class H5File {
   void attr_string(hid_t object, const std::string& name, const std::string& value) const;
   void attr_double(hid_t object, const std::string& name, double value) const;
   void attr_int(hid_t object, const std::string& name, std::int64_t value) const;
+  void attr_uint64(hid_t object, const std::string& name, std::uint64_t value) const;
   void attr_doubles(hid_t object, const std::string& name, const std::vector<double>& values) const;
   std::string read_attr_string(hid_t object, const std::string& name) const;
   double read_attr_double(hid_t object, const std::string& name) const;
   std::int64_t read_attr_int(hid_t object, const std::string& name) const;
+  std::uint64_t read_attr_uint64(hid_t object, const std::string& name) const;
   bool has_attr(hid_t object, const std::string& name) const;
 
   void write_floats(hid_t parent, const std::string& name, const std::vector<hsize_t>& dims,

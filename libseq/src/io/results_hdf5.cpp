@@ -132,7 +132,7 @@ void write_results_hdf5(const std::filesystem::path& path, const RunResults& res
         H5Handle group = file.create_group(training.get(), name);
         file.attr_string(group.get(), "model", record.model);
         file.attr_int(group.get(), "member", record.member);
-        file.attr_int(group.get(), "seed", static_cast<std::int64_t>(record.seed));
+        file.attr_uint64(group.get(), "seed", record.seed);
         file.attr_string(group.get(), "termination", record.termination);
         file.attr_int(group.get(), "epochs", record.epochs);
         file.attr_int(group.get(), "best_epoch", record.best_epoch);
@@ -278,7 +278,7 @@ RunResults read_results_hdf5(const std::filesystem::path& path) {
       TrainingRecord r;
       r.model = file.read_attr_string(group.get(), "model");
       r.member = static_cast<std::uint32_t>(file.read_attr_int(group.get(), "member"));
-      r.seed = static_cast<std::uint64_t>(file.read_attr_int(group.get(), "seed"));
+      r.seed = file.read_attr_uint64(group.get(), "seed");
       r.termination = file.read_attr_string(group.get(), "termination");
       r.epochs = static_cast<std::uint32_t>(file.read_attr_int(group.get(), "epochs"));
       r.best_epoch = static_cast<std::uint32_t>(file.read_attr_int(group.get(), "best_epoch"));

@@ -125,7 +125,7 @@ void write_results_netcdf(const std::filesystem::path& path, const RunResults& r
     nc.text(lon_var, "standard_name", "longitude");
     nc.text(lon_var, "units", "degrees_east");
     const int alt_var = nc.var("alt", NC_DOUBLE, {station_dim});
-    nc.text(alt_var, "standard_name", "height");
+    nc.text(alt_var, "standard_name", "altitude");
     nc.text(alt_var, "units", "m");
     nc.text(alt_var, "positive", "up");
     nc.text(alt_var, "long_name", "elevation of the station above sea level");

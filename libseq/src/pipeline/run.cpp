@@ -38,52 +38,44 @@ using Clock = std::chrono::steady_clock;
 // Reading
 // ---------------------------------------------------------------------------------------------------------------
 
-// Reads every file and joins their sites. Files must share the time axis and the variables read.
+// Reads every variable of every file (joined by site), so that every input the job names can be checked against
+// what the files hold before any work starts.
 data::Panel load_panel(const JobConfig& job, std::vector<std::string>& warnings) {
   io::ReadOptions read;
-  read.variables.push_back(job.features.target);
-  for (const auto& v : job.features.dynamic_inputs) read.variables.push_back(v);
   read.sites = job.sites;
   for (const auto& [variable, units] : job.units) read.target_units[variable] = units;
-  std::optional<data::Panel> joined;
-  for (const auto& file : job.files) {
-    io::ReadResult result = io::read_panel(file, read);
-    for (auto& w : result.warnings) warnings.push_back(std::move(w));
-    if (!joined) {
-      joined = std::move(result.panel);
-      continue;
-    }
-    const data::Panel& next = result.panel;
-    if (!(next.axis() == joined->axis())) {
-      throw DataError(file.string() + ": time axis " + data::format_iso8601(next.axis().start()) + " step " +
-                      next.axis().describe_step() + " differs from the first file's; files of one job must share "
-                      "the time axis");
-    }
-    if (next.variable_count() != joined->variable_count()) {
-      throw DataError(file.string() + ": has other variables than the first file");
-    }
-    std::vector<data::SiteInfo> sites = joined->sites();
-    for (const auto& s : next.sites()) {
-      if (joined->find_site(s.id)) throw DataError(file.string() + ": site '" + s.id + "' is also in an earlier file");
-      sites.push_back(s);
-    }
-    data::Panel merged(joined->axis(), sites, joined->variables());
-    for (std::size_t s = 0; s < joined->site_count(); ++s) {
-      std::copy(joined->site_values(s).begin(), joined->site_values(s).end(), merged.site_values(s).begin());
-    }
-    for (std::size_t s = 0; s < next.site_count(); ++s) {
-      std::copy(next.site_values(s).begin(), next.site_values(s).end(),
-                merged.site_values(joined->site_count() + s).begin());
-    }
-    for (const auto& src : joined->sources()) merged.add_source(src);
-    for (const auto& src : next.sources()) merged.add_source(src);
-    joined = std::move(merged);
+  return detail::read_joined_panel(job.files, read, warnings);
+}
+
+// Every input of the job that the panel lacks, each naming its key.
+std::vector<std::string> input_problems(const JobConfig& job, const data::Panel& panel) {
+  std::string files;
+  for (const auto& f : job.files) files += (files.empty() ? "" : ", ") + f.string();
+  std::string present;
+  for (const auto& v : panel.variables()) {
+    present += (present.empty() ? "" : ", ") + v.name;
+    if (!v.standard_name.empty()) present += " (" + v.standard_name + ")";
   }
-  if (!joined || joined->site_count() == 0) throw DataError("no site with data in the job's files");
-  if (joined->sources().empty()) {
-    for (const auto& f : job.files) joined->add_source(f.string());
+  std::vector<std::string> problems;
+  auto check = [&](const std::string& key, const std::string& name) {
+    if (!panel.find_variable(name)) {
+      problems.push_back(key + ": '" + name + "' is not in " + files + " (by name or standard_name; variables "
+                         "present: " + present + ")");
+    }
+  };
+  check("target.variable", job.features.target);
+  for (const auto& name : job.features.dynamic_inputs) check("inputs.dynamic", name);
+  for (const auto& name : job.features.static_inputs) {
+    for (const auto& site : panel.sites()) {
+      if (site.attributes.count(name)) continue;
+      std::string attributes;
+      for (const auto& [a, value] : site.attributes) attributes += (attributes.empty() ? "" : ", ") + a;
+      problems.push_back("inputs.static: '" + name + "' is not a static attribute of site '" + site.id + "' in " +
+                         files + " (attributes present: " + (attributes.empty() ? "none" : attributes) + ")");
+      break;
+    }
   }
-  return std::move(*joined);
+  return problems;
 }
 
 // ---------------------------------------------------------------------------------------------------------------
@@ -108,14 +100,6 @@ io::ForecastBlock make_block(const std::string& method, std::size_t n, std::size
   b.quantile_levels = levels;
   b.quantiles.assign(n * leads * levels.size(), NAN);
   return b;
-}
-
-// Sorts each case's quantiles so that calibration never leaves them crossed (documented in docs/methods.md).
-void repair_crossing(std::vector<double>& quantiles, std::size_t width) {
-  for (std::size_t c = 0; c + width <= quantiles.size(); c += width) {
-    std::sort(quantiles.begin() + static_cast<std::ptrdiff_t>(c), quantiles.begin() + static_cast<std::ptrdiff_t>(c + width),
-              [](double a, double b) { return std::isnan(b) ? !std::isnan(a) : a < b; });
-  }
 }
 
 std::size_t level_position(const std::vector<double>& levels, double level) {
@@ -290,6 +274,14 @@ void split_by_site(std::span<const data::Window> windows, const detail::CaseDist
   }
 }
 
+// Rounds a set to float precision: the precision results and checkpoints store, so that a resumed run (reading
+// checkpoints) computes the final forecast and calibration from exactly the values an uninterrupted run uses.
+void round_to_float(CaseSet& set) {
+  for (auto* values : {&set.mean, &set.median, &set.quantiles}) {
+    for (double& v : *values) v = static_cast<double>(static_cast<float>(v));
+  }
+}
+
 // Calibrates every central interval of the `test` sets in place: CQR (Romano et al. 2019) on the interval bounds,
 // fitted per lead on the pooled `calibration` sets; with CalibrationMethod::adaptive, then adaptive conformal
 // inference (Gibbs & Candès 2021) through each site's test period in issue order, an outcome being used only once
@@ -378,7 +370,7 @@ bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& cal
       }
     }
   }
-  for (CaseSet* set : test) repair_crossing(set->quantiles, levels);
+  for (CaseSet* set : test) detail::sort_case_quantiles(set->quantiles, levels);
   return true;
 }
 
@@ -471,10 +463,11 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   report("reading", "", job.files.size(), job.files.size());
 
   // Periods against the data, and inputs against the files: all problems at once.
-  std::vector<std::string> problems = job.periods.problems(panel.axis());
+  std::vector<std::string> problems = input_problems(job, panel);
+  for (auto& p : job.periods.problems(panel.axis())) problems.push_back(std::move(p));
   if (!problems.empty()) {
     std::string message = job.job_path.string() + ": " + std::to_string(problems.size()) +
-                          " problem(s) with the periods and the data:";
+                          " problem(s) with the job's inputs and periods against the data:";
     for (const auto& p : problems) message += "\n  " + p;
     throw ConfigError(message);
   }
@@ -664,6 +657,11 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
       const auto dist = detail::to_target_units(ensemble.predict(source, job.seed + (period == &raw_selection ? 23 : 29)),
                                                 table, source.windows(), leads, job.quantiles, false);
       split_by_site(source.windows(), dist, table, job.windows, leads, *period);
+    }
+    for (std::size_t s : model_sites) {
+      round_to_float(raw_test[s]);
+      round_to_float(raw_selection[s]);
+      round_to_float(raw_calibration[s]);
     }
     io::RunResults checkpoint;
     checkpoint.summary = fingerprint;
