@@ -80,9 +80,17 @@ def main():
     parser.add_argument("--repetitions", type=int, default=3)
     parser.add_argument("--threads", type=int, nargs="+", default=[1, 2])
     parser.add_argument("--json", action="store_true")
+    parser.add_argument("--keep-denormals", action="store_true",
+                        help="do not call torch.set_flush_denormal(True); runnel flushes subnormals in its kernels")
+    parser.add_argument("--only", type=int, nargs="+", help="indices into CONFIGS to run (default: all)")
     args = parser.parse_args()
+    # Gradients through hundreds of steps reach the subnormal range, where CPU arithmetic is very slow; runnel
+    # flushes them to zero inside its kernels, so by default the peer does the same.
+    torch.set_flush_denormal(not args.keep_denormals)
     for threads in args.threads:
-        for cfg in CONFIGS:
+        for index, cfg in enumerate(CONFIGS):
+            if args.only and index not in args.only:
+                continue
             for row in run(*cfg, threads=threads, repetitions=args.repetitions):
                 if args.json:
                     print(json.dumps(row), flush=True)
