@@ -89,14 +89,25 @@ TEST(MemoryTask, LstmAndGruRecallFiveAndSixtyStepsBack) {
   }
 }
 
-TEST(MemoryTask, ElmanFailsAtSixtyAndItsGradientVanishes) {
-  const Outcome outcome = run(nn::CellType::elman, 60, 60);
-  EXPECT_GE(outcome.relative_mse, 0.10) << outcome.summary.full_report();
+// The diagnostic's part of the claim: with the initial weights the Elman net's gradient 60 steps back is orders of
+// magnitude below the one 5 steps back, which is why its learning signal for the long lag is weak.
+TEST(MemoryTask, ElmanGradientVanishesAtSixtySteps) {
+  const Outcome outcome = run(nn::CellType::elman, 60, 1);
   const GradientThroughTime& g = outcome.summary.initial_gradient;
   ASSERT_EQ(g.lags, (std::vector<std::size_t>{0, 5, 60}));
   const double ratio = g.input_gradient_norm[2] / g.input_gradient_norm[1];
   std::printf("elman k=60, initial weights: |dL/dx| lag 60 / lag 5 = %.3e\n%s", ratio, g.report().c_str());
   EXPECT_LT(ratio, 1e-2) << g.report();
+}
+
+// FAILS with the current engine and is therefore disabled (run it with --gtest_also_run_disabled_tests): after the
+// engine changes of 2026-12-02 the Elman net did learn this marked-recall task at k = 60 (best validation MSE 0.066
+// of the target variance, below the 10 % "learns" threshold), so the claim "Elman fails at the long lag" is not
+// shown by this task. The threshold is not moved; the recurrent-engine issue stays open on this point until a
+// task fixed in advance shows it (or shows it does not hold).
+TEST(MemoryTask, DISABLED_ElmanFailsAtSixtySteps) {
+  const Outcome outcome = run(nn::CellType::elman, 60, 60);
+  EXPECT_GE(outcome.relative_mse, 0.10) << outcome.summary.full_report();
 }
 
 }  // namespace libseq::train
