@@ -287,7 +287,8 @@ void round_to_float(CaseSet& set) {
 // inference (Gibbs & Candès 2021) through each site's test period in issue order, an outcome being used only once
 // it is observed (lead steps after the issue). Returns false when there was nothing to calibrate on.
 bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& calibration,
-                    const std::vector<CaseSet*>& test, std::size_t leads) {
+                    const std::vector<CaseSet*>& test, std::size_t leads, const std::string& what,
+                    std::vector<std::string>& warnings) {
   const std::size_t levels = job.quantiles.size();
   std::vector<double> observed;
   std::vector<std::size_t> lead_of_case;
@@ -323,6 +324,16 @@ bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& cal
     conformal.miscoverage = 1 - coverage;
     conformal.per_lead = true;
     const auto calibrator = uncertainty::Calibrator::fit(data, conformal);
+    for (const auto& lead : calibrator.state().leads) {
+      if (std::isinf(lead.score_quantile)) {
+        char text[200];
+        std::snprintf(text, sizeof text,
+                      "%s: the %g %% interval of lead %zu is unbounded: %zu calibration case(s) are too few for rank "
+                      "%zu (split conformal needs n >= %zu); lengthen periods.calibration",
+                      what.c_str(), coverage * 100, lead.lead + 1, lead.count, lead.rank, lead.rank);
+        warnings.push_back(text);
+      }
+    }
     for (CaseSet* set : test) {
       if (job.calibration == CalibrationMethod::split_conformal) {
         for (std::size_t c = 0; c < set->observed.size(); ++c) {
@@ -700,7 +711,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
         calibration.push_back(&raw_calibration[s]);
         test.push_back(&network_test[s]);
       }
-      if (!calibrate_sets(job, calibration, test, leads)) {
+      if (!calibrate_sets(job, calibration, test, leads, "network", results.warnings)) {
         results.warnings.push_back("network: no calibration case with an observed target for every lead; its "
                                    "intervals are left uncalibrated");
       }
@@ -848,7 +859,8 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
       choice += text;
     }
     if (job.calibration != CalibrationMethod::none) {
-      calibrate_sets(job, {&final_calibration}, {&final_test}, leads);
+      calibrate_sets(job, {&final_calibration}, {&final_test}, leads, "site " + panel.sites()[s].id + ", final",
+                     results.warnings);
     }
     results.sites[s].methods.push_back(block_from_set(final_method_name, final_test, job.quantiles));
     results.notes.push_back("site " + panel.sites()[s].id + ", final forecast: " + choice);
