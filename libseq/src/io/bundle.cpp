@@ -1,4 +1,5 @@
 #include "libseq/io/bundle.hpp"
+#include "libseq/io/results.hpp"
 
 #include <hdf5.h>
 
@@ -207,23 +208,8 @@ void save_bundle(const std::filesystem::path& path, const ModelBundle& bundle) {
                       " values do not fill its shape of " + std::to_string(array.element_count()) + " elements");
     }
   }
-  // A temporary name in the same directory (so the rename stays on one file system), unique per process.
-  std::filesystem::path temporary = path;
-  temporary += ".tmp-" + std::to_string(static_cast<long>(::getpid()));
   QuietHdf5 quiet;
-  try {
-    write_bundle_file(temporary, bundle);
-  } catch (...) {
-    std::error_code ignored;
-    std::filesystem::remove(temporary, ignored);
-    throw;
-  }
-  std::error_code error;
-  std::filesystem::rename(temporary, path, error);
-  if (error) {
-    std::filesystem::remove(temporary, error);
-    throw IoError("model bundle " + path.string() + ": cannot rename the temporary file into place");
-  }
+  write_atomically(path, [&](const std::filesystem::path& temporary) { write_bundle_file(temporary, bundle); });
 }
 
 ModelBundle load_bundle(const std::filesystem::path& path) {

@@ -38,18 +38,15 @@ std::filesystem::path temporary_path_for(const std::filesystem::path& path) {
   return path.parent_path() / ("." + path.filename().string() + ".tmp-" + tag);
 }
 
-void write_text_atomically(const std::filesystem::path& path, const std::string& text) {
+void write_atomically(const std::filesystem::path& path,
+                      const std::function<void(const std::filesystem::path& temporary)>& write) {
   const auto temporary = temporary_path_for(path);
-  {
-    std::ofstream out(temporary, std::ios::binary);
-    if (!out) throw IoError(path.string() + ": cannot write (check the folder exists and is writable)");
-    out << text;
-    out.flush();
-    if (!out) {
-      std::error_code ignored;
-      std::filesystem::remove(temporary, ignored);
-      throw IoError(path.string() + ": writing failed (disk full?)");
-    }
+  try {
+    write(temporary);
+  } catch (...) {
+    std::error_code ignored;
+    std::filesystem::remove(temporary, ignored);
+    throw;
   }
   std::error_code error;
   std::filesystem::rename(temporary, path, error);
@@ -57,6 +54,16 @@ void write_text_atomically(const std::filesystem::path& path, const std::string&
     std::filesystem::remove(temporary, error);
     throw IoError(path.string() + ": cannot move the finished file into place: " + error.message());
   }
+}
+
+void write_text_atomically(const std::filesystem::path& path, const std::string& text) {
+  write_atomically(path, [&](const std::filesystem::path& temporary) {
+    std::ofstream out(temporary, std::ios::binary);
+    if (!out) throw IoError(path.string() + ": cannot write (check the folder exists and is writable)");
+    out << text;
+    out.flush();
+    if (!out) throw IoError(path.string() + ": writing failed (disk full?)");
+  });
 }
 
 namespace {

@@ -36,8 +36,7 @@ void write_block(const H5File& file, hid_t site_group, const ForecastBlock& bloc
 
 void write_results_hdf5(const std::filesystem::path& path, const RunResults& results) {
   results.validate();
-  const auto temporary = temporary_path_for(path);
-  try {
+  write_atomically(path, [&](const std::filesystem::path& temporary) {
     H5File file = H5File::create(temporary);
     const hid_t root = file.root();
     file.attr_string(root, "runnel_layout", "results");
@@ -169,17 +168,7 @@ void write_results_hdf5(const std::filesystem::path& path, const RunResults& res
       file.write_strings(provenance.get(), "input_sha256", sums);
     }
     file.close();
-  } catch (...) {
-    std::error_code ignored;
-    std::filesystem::remove(temporary, ignored);
-    throw;
-  }
-  std::error_code error;
-  std::filesystem::rename(temporary, path, error);
-  if (error) {
-    std::filesystem::remove(temporary, error);
-    throw IoError(path.string() + ": cannot move the finished results file into place: " + error.message());
-  }
+  });
 }
 
 RunResults read_results_hdf5(const std::filesystem::path& path) {

@@ -93,8 +93,7 @@ void write_results_netcdf(const std::filesystem::path& path, const RunResults& r
 
   const std::size_t station_count = results.sites.size();
   const std::size_t leads = results.leads.size();
-  const auto temporary = temporary_path_for(path);
-  try {
+  write_atomically(path, [&](const std::filesystem::path& temporary) {
     NcWriter nc(temporary);
     const int station_dim = nc.dim("station", station_count);
     const int time_dim = nc.dim("time", times.size());
@@ -266,17 +265,7 @@ void write_results_netcdf(const std::filesystem::path& path, const RunResults& r
       }
     }
     nc.close();
-  } catch (...) {
-    std::error_code ignored;
-    std::filesystem::remove(temporary, ignored);
-    throw;
-  }
-  std::error_code error;
-  std::filesystem::rename(temporary, path, error);
-  if (error) {
-    std::filesystem::remove(temporary, error);
-    throw IoError(path.string() + ": cannot move the finished NetCDF file into place: " + error.message());
-  }
+  });
 }
 
 }  // namespace libseq::io

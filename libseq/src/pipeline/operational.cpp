@@ -382,20 +382,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
       bundle.arrays[mp + "windows_drawn"] = io::NamedArray::of_doubles({}, {static_cast<double>(member.windows_drawn)});
 
       const auto& ts = member.summary;
-      io::TrainingRecord record;
-      record.model = model_name;
-      record.member = static_cast<std::uint32_t>(k);
-      record.seed = member.seed;
-      record.termination = train::to_string(ts.termination);
-      record.epochs = static_cast<std::uint32_t>(ts.epochs_run);
-      record.best_epoch = static_cast<std::uint32_t>(ts.best_epoch);
-      record.best_validation_loss = ts.monitored_validation && ts.has_best ? ts.best_loss : NAN;
-      record.train_loss = ts.train_loss;
-      record.validation_loss = ts.validation_loss;
-      record.gradient_norm = ts.gradient_norm_mean;
-      record.clipped_steps = ts.clipped_total;
-      record.total_steps = ts.updates;
-      record.seconds = ts.wall_seconds;
+      io::TrainingRecord record = detail::training_record(model_name, k, member);
       if (ts.termination == train::TerminationReason::diverged) {
         summary.warnings.push_back("model " + model_name + ", member " + std::to_string(k) + ": training diverged (" +
                                    ts.termination_detail + "); member left out of forecasts");

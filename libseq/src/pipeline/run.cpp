@@ -612,24 +612,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     for (std::size_t k = 0; k < ensemble.members().size(); ++k) {
       const auto& member = ensemble.members()[k];
       const auto& ts = member.summary;
-      io::TrainingRecord record;
-      record.model = model_name;
-      record.member = static_cast<std::uint32_t>(k);
-      record.seed = member.seed;
-      record.termination = train::to_string(ts.termination);
-      record.epochs = static_cast<std::uint32_t>(ts.epochs_run);
-      record.best_epoch = static_cast<std::uint32_t>(ts.best_epoch);
-      record.best_validation_loss = ts.monitored_validation && ts.has_best ? ts.best_loss : NAN;
-      record.train_loss = ts.train_loss;
-      record.validation_loss = ts.validation_loss;
-      record.gradient_norm = ts.gradient_norm_mean;
-      record.clipped_steps = ts.clipped_total;
-      record.total_steps = ts.updates;
-      for (std::size_t i = 0; i < ts.final_gradient.lags.size(); ++i) {
-        record.diagnostic_lags.push_back(static_cast<std::int64_t>(ts.final_gradient.lags[i]));
-        record.diagnostic_gradient_norms.push_back(ts.final_gradient.input_gradient_norm[i]);
-      }
-      record.seconds = ts.wall_seconds;
+      io::TrainingRecord record = detail::training_record(model_name, k, member);
       if (ts.termination == train::TerminationReason::diverged) {
         results.warnings.push_back("model " + model_name + ", member " + std::to_string(k) +
                                    ": training diverged (" + ts.termination_detail + "); member left out");

@@ -11,6 +11,7 @@
 #include "libseq/io/read_options.hpp"
 #include "libseq/nn/network.hpp"
 #include "libseq/train/sequence_source.hpp"
+#include "libseq/io/results.hpp"
 #include "libseq/pipeline/job.hpp"
 #include "libseq/uncertainty/ensemble.hpp"
 #include "libseq/uncertainty/mixture.hpp"
@@ -56,6 +57,11 @@ CaseDistributions to_target_units(const uncertainty::MemberForecasts& members, c
 
 /// The ensemble options of a job for a fitted feature plan (network input and static sizes, horizon, seeds).
 uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const data::FeaturePlan& plan);
+
+/// The results record of member `member` (index `index`) of model `model_name`: its training summary, curves and
+/// final gradient-through-time profile.
+io::TrainingRecord training_record(const std::string& model_name, std::size_t index,
+                                   const uncertainty::EnsembleMember& member);
 
 /// Seed of the resamples of model `model` (0-based) of a job: distinct per model, fixed by the job seed.
 std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model);

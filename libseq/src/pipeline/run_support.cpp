@@ -103,6 +103,30 @@ uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const da
   return options;
 }
 
+io::TrainingRecord training_record(const std::string& model_name, std::size_t index,
+                                   const uncertainty::EnsembleMember& member) {
+  const auto& ts = member.summary;
+  io::TrainingRecord record;
+  record.model = model_name;
+  record.member = static_cast<std::uint32_t>(index);
+  record.seed = member.seed;
+  record.termination = train::to_string(ts.termination);
+  record.epochs = static_cast<std::uint32_t>(ts.epochs_run);
+  record.best_epoch = static_cast<std::uint32_t>(ts.best_epoch);
+  record.best_validation_loss = ts.monitored_validation && ts.has_best ? ts.best_loss : NAN;
+  record.train_loss = ts.train_loss;
+  record.validation_loss = ts.validation_loss;
+  record.gradient_norm = ts.gradient_norm_mean;
+  record.clipped_steps = ts.clipped_total;
+  record.total_steps = ts.updates;
+  for (std::size_t i = 0; i < ts.final_gradient.lags.size(); ++i) {
+    record.diagnostic_lags.push_back(static_cast<std::int64_t>(ts.final_gradient.lags[i]));
+    record.diagnostic_gradient_norms.push_back(ts.final_gradient.input_gradient_norm[i]);
+  }
+  record.seconds = ts.wall_seconds;
+  return record;
+}
+
 std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model) {
   return uncertainty::member_seed(job_seed, 1000003 * (model + 1));
 }

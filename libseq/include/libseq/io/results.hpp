@@ -7,6 +7,7 @@
 
 #include <cstdint>
 #include <filesystem>
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -129,6 +130,12 @@ void write_text_atomically(const std::filesystem::path& path, const std::string&
 
 /// A temporary path beside `path` for atomic writes (same folder, so that rename is atomic).
 std::filesystem::path temporary_path_for(const std::filesystem::path& path);
+
+/// Calls `write(temporary)` for a temporary path beside `path`, then renames it over `path`; on any failure the
+/// temporary file is removed and `path` is left as it was. What `write` throws passes through.
+/// @throws libseq::IoError naming `path` when the rename fails.
+void write_atomically(const std::filesystem::path& path,
+                      const std::function<void(const std::filesystem::path& temporary)>& write);
 
 /// SHA-256 of a file's bytes as lowercase hex. @throws libseq::IoError naming the path.
 std::string sha256_of_file(const std::filesystem::path& path);
