@@ -23,5 +23,6 @@ Command add_run_command(CLI::App& root);
 Command add_report_command(CLI::App& root);
 Command add_fit_command(CLI::App& root);
 Command add_forecast_command(CLI::App& root);
+Command add_score_command(CLI::App& root);
 
 }  // namespace runnel_app

@@ -15,7 +15,7 @@ int main(int argc, char** argv) {
   root.set_version_flag("--version", "runnel " + libseq::version() + " (" + libseq::git_commit() + ")");
   std::vector<Command> commands{add_inspect_command(root), add_init_command(root), add_run_command(root),
                                 add_report_command(root), add_fit_command(root),
-                                add_forecast_command(root)};
+                                add_forecast_command(root), add_score_command(root)};
   try {
     root.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -4,6 +4,7 @@
 // docs/commands/README.md (0 ok, 1 usage, 2 bad input, 3 run failed). The determinism case reads results.h5 back
 // with the library's reader (module io) to compare two runs value by value.
 #include <gtest/gtest.h>
+#include <unistd.h>
 #include <sys/wait.h>
 
 #include <algorithm>
@@ -42,7 +43,10 @@ std::string quoted(const std::string& text) { return "'" + text + "'"; }  // scr
 bool contains(const std::string& text, const std::string& part) { return text.find(part) != std::string::npos; }
 
 // A test's folder below the build tree: scratch() empties it, scratch_path() only names it.
-fs::path scratch_path(const std::string& test) { return libseq::test::binary_dir() / "test-scratch" / "cli_run" / test; }
+// (the same name scratch_dir() gives it, process id included).
+fs::path scratch_path(const std::string& test) {
+  return libseq::test::binary_dir() / "test-scratch" / ("cli_run/" + test + "-" + std::to_string(::getpid()));
+}
 fs::path scratch(const std::string& test) { return libseq::test::scratch_dir("cli_run/" + test); }
 
 // Runs `runnel <arguments>` from `dir` (the working directory matters for init's default output name), capturing

@@ -1,5 +1,6 @@
 // HDF5 results files (layout: docs/output-format.md, version io::results_format_version).
 #include <cctype>
+#include <cmath>
 
 #include "hdf5_util_impl.hpp"
 #include "libseq/caution.hpp"
@@ -58,8 +59,9 @@ void write_results_hdf5(const std::filesystem::path& path, const RunResults& res
       H5Handle sites = file.create_group(root, "sites");
       file.attr_string(sites.get(), "crs", "EPSG:4326");
       std::vector<std::string> ids, names, groups;
-      std::vector<double> latitude, longitude, elevation;
+      std::vector<double> latitude, longitude, elevation, mase_scale;
       for (std::size_t i = 0; i < results.sites.size(); ++i) {
+        mase_scale.push_back(results.sites[i].mase_scale);
         const auto& s = results.sites[i].site;
         ids.push_back(s.id);
         names.push_back(s.name);
@@ -74,6 +76,7 @@ void write_results_hdf5(const std::filesystem::path& path, const RunResults& res
       file.write_doubles(sites.get(), "latitude", {latitude.size()}, latitude);
       file.write_doubles(sites.get(), "longitude", {longitude.size()}, longitude);
       file.write_doubles(sites.get(), "elevation", {elevation.size()}, elevation);
+      file.write_doubles(sites.get(), "mase_scale", {mase_scale.size()}, mase_scale);
 
       H5Handle hindcasts = file.create_group(root, "hindcasts");
       const hsize_t leads = results.leads.size();
@@ -204,6 +207,8 @@ RunResults read_results_hdf5(const std::filesystem::path& path) {
     const auto latitude = file.read_doubles(sites.get(), "latitude");
     const auto longitude = file.read_doubles(sites.get(), "longitude");
     const auto elevation = file.read_doubles(sites.get(), "elevation");
+    const auto mase_scale = file.exists(sites.get(), "mase_scale") ? file.read_doubles(sites.get(), "mase_scale")
+                                                                   : std::vector<double>(ids.size(), NAN);
     if (names.size() != ids.size() || groups.size() != ids.size() || latitude.size() != ids.size() ||
         longitude.size() != ids.size() || elevation.size() != ids.size()) {
       throw FormatError(path.string() + ": the /sites datasets have different lengths");
@@ -216,6 +221,7 @@ RunResults read_results_hdf5(const std::filesystem::path& path) {
       site.site.latitude = latitude[i];
       site.site.longitude = longitude[i];
       site.site.elevation = elevation[i];
+      site.mase_scale = i < mase_scale.size() ? mase_scale[i] : NAN;
       H5Handle group = file.open_group(hindcasts.get(), groups[i]);
       site.issue_times = file.read_int64s(group.get(), "issue_time");
       site.observed = file.read_floats(group.get(), "observed");

@@ -23,6 +23,7 @@
 #include "libseq/metrics/deterministic.hpp"
 #include "libseq/metrics/scorecard.hpp"
 #include "libseq/pipeline/report.hpp"
+#include "libseq/pipeline/score.hpp"
 #include "libseq/uncertainty/conformal.hpp"
 #include "libseq/uncertainty/ensemble.hpp"
 #include "libseq/version.hpp"
@@ -144,103 +145,6 @@ std::unique_ptr<baselines::Forecaster> make_baseline(baselines::BaselineKind kin
   throw ConfigError("baselines.methods: unknown baseline");
 }
 
-// ---------------------------------------------------------------------------------------------------------------
-// Scoring
-// ---------------------------------------------------------------------------------------------------------------
-
-std::string interval_suffix(double coverage) {
-  char buffer[16];
-  std::snprintf(buffer, sizeof buffer, "_%g", std::round(coverage * 1000) / 10);
-  std::string s = buffer;
-  std::replace(s.begin(), s.end(), '.', 'p');
-  return s;
-}
-
-bool is_interval_metric(metrics::Metric m) {
-  return m == metrics::Metric::interval_score || m == metrics::Metric::coverage || m == metrics::Metric::mean_width;
-}
-
-void add_rows(const metrics::Scorecard& card, bool interval_only, double coverage, std::vector<io::MetricRow>& rows) {
-  for (const auto& record : card.records()) {
-    for (const auto& [metric, value] : record.values) {
-      if (interval_only != is_interval_metric(metric)) continue;
-      io::MetricRow row;
-      row.site = record.site;
-      row.method = record.method;
-      row.lead = record.lead;
-      row.metric = metrics::to_string(metric) + (interval_only ? interval_suffix(coverage) : "");
-      row.value = value.value;
-      row.used = value.counts.used;
-      row.skipped = value.counts.skipped();
-      auto ci = record.intervals.find(metric);
-      if (ci != record.intervals.end()) {
-        row.ci_low = ci->second.lower;
-        row.ci_high = ci->second.upper;
-      }
-      rows.push_back(row);
-    }
-  }
-}
-
-std::vector<io::MetricRow> score_results(const io::RunResults& results, const JobConfig& job,
-                                         const std::vector<double>& mase_scales) {
-  std::vector<metrics::ScoreInput> inputs;
-  const std::size_t leads = results.leads.size();
-  for (std::size_t s = 0; s < results.sites.size(); ++s) {
-    const auto& site = results.sites[s];
-    const std::size_t n = site.issue_times.size();
-    for (const auto& block : site.methods) {
-      for (std::size_t k = 0; k < leads; ++k) {
-        metrics::ScoreInput in;
-        in.site = site.site.id;
-        in.method = block.method;
-        in.lead = results.leads[k];
-        auto& c = in.cases;
-        c.form = block.quantile_levels.empty() ? metrics::PredictiveForm::none : metrics::PredictiveForm::quantiles;
-        c.levels = block.quantile_levels;
-        for (std::size_t i = 0; i < n; ++i) {
-          c.observed.push_back(site.observed[i * leads + k]);
-          c.point.push_back(block.mean[i * leads + k]);
-          for (std::size_t q = 0; q < block.quantile_levels.size(); ++q) {
-            c.quantiles.push_back(block.quantiles[(i * leads + k) * block.quantile_levels.size() + q]);
-          }
-          if (std::isfinite(mase_scales[s])) c.mase_scales.push_back(mase_scales[s]);
-        }
-        if (c.mase_scales.size() != c.observed.size()) c.mase_scales.clear();
-        inputs.push_back(std::move(in));
-      }
-    }
-  }
-  metrics::ScoreOptions options;
-  for (const auto& name : job.metrics) options.metrics.push_back(metrics::parse_metric(name, "scoring.metrics"));
-  if (job.bootstrap_resamples > 0) {
-    metrics::BootstrapOptions b;
-    b.resamples = job.bootstrap_resamples;
-    b.block_length = std::max<std::size_t>(1, job.windows.lookback_steps / 2);
-    b.seed = job.seed;
-    options.bootstrap = b;
-  }
-  std::vector<io::MetricRow> rows;
-  for (std::size_t i = 0; i < job.intervals.size(); ++i) {
-    options.interval_coverage = job.intervals[i];
-    // MASE needs the same scale for every case of a pooled set; pooling over sites mixes scales, which the
-    // scorecard refuses, so pooled-over-sites records drop MASE.
-    const bool first = i == 0;
-    for (auto scorer : {&metrics::score_per_site_and_lead, &metrics::score_per_site}) {
-      const auto card = scorer(inputs, options);
-      if (first) add_rows(card, false, 0, rows);
-      add_rows(card, true, job.intervals[i], rows);
-    }
-    std::vector<metrics::ScoreInput> without_mase = inputs;
-    for (auto& in : without_mase) in.cases.mase_scales.clear();
-    for (auto scorer : {&metrics::score_per_lead, &metrics::score_pooled}) {
-      const auto card = scorer(without_mase, options);
-      if (first) add_rows(card, false, 0, rows);
-      add_rows(card, true, job.intervals[i], rows);
-    }
-  }
-  return rows;
-}
 
 // ---------------------------------------------------------------------------------------------------------------
 // Case sets: one site's forecasts on one period, case = row * leads + lead, quantiles case-major.
@@ -851,7 +755,14 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
 
   // ---- Scoring ---------------------------------------------------------------------------------------------------
   report("scoring", "", 0, 1);
-  results.metrics = score_results(results, job, mase_scales);
+  for (std::size_t s = 0; s < site_count; ++s) results.sites[s].mase_scale = mase_scales[s];
+  ScoringOptions scoring;
+  scoring.metrics = job.metrics;
+  scoring.intervals = job.intervals;
+  scoring.bootstrap_resamples = job.bootstrap_resamples;
+  scoring.bootstrap_block = std::max<std::size_t>(1, job.windows.lookback_steps / 2);
+  scoring.seed = job.seed;
+  results.metrics = score_hindcasts(results, scoring);
   report("scoring", "", 1, 1);
 
   // ---- Provenance and outputs ------------------------------------------------------------------------------------

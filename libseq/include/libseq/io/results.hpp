@@ -35,6 +35,8 @@ struct SiteResults {
   std::vector<data::UtcSeconds> issue_times;  ///< n issue times (forecast mode) or simulated times (lead 0)
   std::vector<float> observed;                ///< n × L observed target at each (issue, lead); NaN = missing
   std::vector<ForecastBlock> methods;
+  /// In-sample one-step naive MAE on the fit period, the MASE scale of this site; NaN when unknown.
+  double mase_scale = std::numeric_limits<double>::quiet_NaN();
 };
 
 /// One metric value of one (site, method, lead).
