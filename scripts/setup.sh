@@ -41,7 +41,7 @@ packages=(g++ cmake make git pkg-config libeigen3-dev libboost-math-dev libhdf5-
 # Tests: command-line tools and Python readers that check our outputs from the outside.
 if [ "$mode" = test ]; then
   packages+=(netcdf-bin hdf5-tools python3 python3-numpy python3-h5py python3-netcdf4 python3-xarray gdal-bin
-             chromium)
+             chromium fonts-liberation)
 fi
 # Regenerating the stored reference values in validation/ (not needed to run the tests).
 if [ "$reference" = 1 ]; then

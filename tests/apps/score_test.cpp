@@ -103,3 +103,22 @@ TEST(CliScore, RefusesIntervalsWithoutStoredBoundsAndEmptyPeriods) {
   r = runnel(dir, "score");
   EXPECT_EQ(r.exit_code, 1);
 }
+
+// runnel report on the same kind of file: success writes one HTML page with the caution; failures exit 2.
+TEST(CliReport, WritesThePageAndRefusesMissingOrForeignFiles) {
+  const fs::path dir = libseq::test::scratch_dir("cli_report");
+  sample_results(dir);
+  CliRun r = runnel(dir, "report results.h5 -o page.html");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const std::string page = slurp(dir / "page.html");
+  EXPECT_NE(page.find("<html"), std::string::npos);
+  EXPECT_NE(page.find("site-S1"), std::string::npos);
+  EXPECT_NE(r.out.find("CAUTION"), std::string::npos);
+  r = runnel(dir, "report absent.h5");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find("absent.h5"), std::string::npos) << r.err;
+  { std::ofstream(dir / "foreign.h5") << "not a results file"; }
+  r = runnel(dir, "report foreign.h5");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find("foreign.h5"), std::string::npos) << r.err;
+}
