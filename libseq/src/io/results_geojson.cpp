@@ -5,53 +5,11 @@
 #include <sstream>
 
 #include "libseq/caution.hpp"
+#include "libseq/io/json_text.hpp"
 #include "libseq/io/results.hpp"
 
 namespace libseq::io {
 
-namespace {
-
-std::string json_string(const std::string& text) {
-  std::string out = "\"";
-  for (unsigned char c : text) {
-    switch (c) {
-      case '"':
-        out += "\\\"";
-        break;
-      case '\\':
-        out += "\\\\";
-        break;
-      case '\n':
-        out += "\\n";
-        break;
-      case '\r':
-        out += "\\r";
-        break;
-      case '\t':
-        out += "\\t";
-        break;
-      default:
-        if (c < 0x20) {
-          char buffer[8];
-          std::snprintf(buffer, sizeof buffer, "\\u%04x", c);
-          out += buffer;
-        } else {
-          out += static_cast<char>(c);
-        }
-    }
-  }
-  return out + "\"";
-}
-
-// JSON has no NaN: undefined values are written as null.
-std::string json_number(double value) {
-  if (!std::isfinite(value)) return "null";
-  char buffer[32];
-  std::snprintf(buffer, sizeof buffer, "%.10g", value);
-  return buffer;
-}
-
-}  // namespace
 
 void write_station_geojson(const std::filesystem::path& path, const RunResults& results) {
   // Pooled-over-leads metrics by site, then "<method>_<metric>" property names.

@@ -1,5 +1,7 @@
 #include "libseq/pipeline/inspect.hpp"
 
+#include "libseq/io/json_text.hpp"
+
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -100,79 +102,6 @@ std::string or_dash(const std::string& text) {
   return cell;
 }
 
-// JSON string with the escapes RFC 8259 section 7 requires; bytes that are not valid UTF-8 become U+FFFD so the
-// output stays valid JSON whatever encoding the input file used.
-std::string json_string(const std::string& text) {
-  std::string out = "\"";
-  for (std::size_t i = 0; i < text.size();) {
-    const auto c = static_cast<unsigned char>(text[i]);
-    if (c < 0x80) {
-      switch (c) {
-        case '"':
-          out += "\\\"";
-          break;
-        case '\\':
-          out += "\\\\";
-          break;
-        case '\n':
-          out += "\\n";
-          break;
-        case '\r':
-          out += "\\r";
-          break;
-        case '\t':
-          out += "\\t";
-          break;
-        case '\b':
-          out += "\\b";
-          break;
-        case '\f':
-          out += "\\f";
-          break;
-        default:
-          if (c < 0x20) {
-            char buffer[8];
-            std::snprintf(buffer, sizeof buffer, "\\u%04x", c);
-            out += buffer;
-          } else {
-            out += static_cast<char>(c);
-          }
-      }
-      ++i;
-      continue;
-    }
-    // Length of a well-formed UTF-8 sequence (RFC 3629 section 4), 0 when the lead byte is invalid.
-    const std::size_t length = c >= 0xC2 && c <= 0xDF ? 2 : c >= 0xE0 && c <= 0xEF ? 3 : c >= 0xF0 && c <= 0xF4 ? 4 : 0;
-    bool valid = length != 0 && i + length <= text.size();
-    for (std::size_t k = 1; valid && k < length; ++k) {
-      valid = (static_cast<unsigned char>(text[i + k]) & 0xC0) == 0x80;
-    }
-    if (valid && length >= 3) {
-      const auto second = static_cast<unsigned char>(text[i + 1]);
-      // Overlong forms, UTF-16 surrogates and code points above U+10FFFF are not valid UTF-8.
-      if ((c == 0xE0 && second < 0xA0) || (c == 0xED && second > 0x9F) || (c == 0xF0 && second < 0x90) ||
-          (c == 0xF4 && second > 0x8F)) {
-        valid = false;
-      }
-    }
-    if (valid) {
-      out.append(text, i, length);
-      i += length;
-    } else {
-      out += "\xEF\xBF\xBD";
-      ++i;
-    }
-  }
-  return out + "\"";
-}
-
-std::string json_number(double value) {
-  if (!std::isfinite(value)) return "null";
-  char buffer[64];
-  std::snprintf(buffer, sizeof buffer, "%.10g", value);
-  return buffer;
-}
-
 }  // namespace
 
 std::size_t InspectReport::failed_count() const {
@@ -224,39 +153,39 @@ std::string InspectReport::to_json() const {
   for (std::size_t f = 0; f < files.size(); ++f) {
     const FileInspection& file = files[f];
     out += f ? ",\n  {" : "\n  {";
-    out += "\"path\": " + json_string(file.path);
+    out += "\"path\": " + io::json_string(file.path);
     out += ", \"ok\": " + std::string(file.ok() ? "true" : "false");
-    out += ", \"format\": " + (file.format ? json_string(io::to_string(*file.format)) : std::string("null"));
+    out += ", \"format\": " + (file.format ? io::json_string(io::to_string(*file.format)) : std::string("null"));
     if (!file.ok()) {
-      out += ", \"error_kind\": " + json_string(file.error_kind) + ", \"error\": " + json_string(file.error) + "}";
+      out += ", \"error_kind\": " + io::json_string(file.error_kind) + ", \"error\": " + io::json_string(file.error) + "}";
       continue;
     }
-    out += ",\n   \"time\": {\"start\": " + json_string(file.time_start) + ", \"end\": " + json_string(file.time_end) +
-           ", \"step_seconds\": " + std::to_string(file.step_seconds) + ", \"step\": " + json_string(file.step) +
+    out += ",\n   \"time\": {\"start\": " + io::json_string(file.time_start) + ", \"end\": " + io::json_string(file.time_end) +
+           ", \"step_seconds\": " + std::to_string(file.step_seconds) + ", \"step\": " + io::json_string(file.step) +
            ", \"count\": " + std::to_string(file.time_count) + "}";
     out += ",\n   \"variables\": [";
     for (std::size_t v = 0; v < file.variables.size(); ++v) {
       const auto& var = file.variables[v];
-      out += (v ? ", " : "") + std::string("{\"name\": ") + json_string(var.name) +
-             ", \"units\": " + json_string(var.units) + ", \"standard_name\": " + json_string(var.standard_name) + "}";
+      out += (v ? ", " : "") + std::string("{\"name\": ") + io::json_string(var.name) +
+             ", \"units\": " + io::json_string(var.units) + ", \"standard_name\": " + io::json_string(var.standard_name) + "}";
     }
     out += "],\n   \"sites\": [";
     for (std::size_t s = 0; s < file.sites.size(); ++s) {
       const auto& site = file.sites[s];
-      out += (s ? ",\n     " : "\n     ") + std::string("{\"id\": ") + json_string(site.id) +
-             ", \"name\": " + json_string(site.name) + ", \"latitude\": " + json_number(site.latitude) +
-             ", \"longitude\": " + json_number(site.longitude) + ", \"missing_fraction\": {";
+      out += (s ? ",\n     " : "\n     ") + std::string("{\"id\": ") + io::json_string(site.id) +
+             ", \"name\": " + io::json_string(site.name) + ", \"latitude\": " + io::json_number(site.latitude) +
+             ", \"longitude\": " + io::json_number(site.longitude) + ", \"missing_fraction\": {";
       for (std::size_t v = 0; v < site.missing_fraction.size() && v < file.variables.size(); ++v) {
-        out += (v ? ", " : "") + json_string(file.variables[v].name) + ": " + json_number(site.missing_fraction[v]);
+        out += (v ? ", " : "") + io::json_string(file.variables[v].name) + ": " + io::json_number(site.missing_fraction[v]);
       }
       out += "}}";
     }
     out += "],\n   \"warnings\": [";
-    for (std::size_t w = 0; w < file.warnings.size(); ++w) out += (w ? ", " : "") + json_string(file.warnings[w]);
+    for (std::size_t w = 0; w < file.warnings.size(); ++w) out += (w ? ", " : "") + io::json_string(file.warnings[w]);
     out += "]}";
   }
   out += "\n ],\n \"file_count\": " + std::to_string(files.size()) +
-         ", \"failed_count\": " + std::to_string(failed_count()) + ",\n \"caution\": " + json_string(caution_text()) +
+         ", \"failed_count\": " + std::to_string(failed_count()) + ",\n \"caution\": " + io::json_string(caution_text()) +
          "}\n";
   return out;
 }
