@@ -816,9 +816,14 @@ std::string RunSummary::brief_report() const {
   out << ", " << seconds << " s\n";
   // Notes are per site; on large runs they stay in results.h5 (/notes) and the report.
   if (results.notes.size() <= 5) {
-    for (const auto& n : results.notes) out << "note: " << n << "\n";
+    for (const auto& n : results.notes) {
+      out << "note: " << (n.size() > 160 ? n.substr(0, 157) + "..." : n) << "\n";
+    }
   } else {
     out << results.notes.size() << " notes (the final forecast's weights per site) are in results.h5 /notes\n";
+  }
+  if (!results.notes.empty() && results.notes.size() <= 5) {
+    out << "(notes in full: results.h5 /notes)\n";
   }
   for (const auto& w : results.warnings) out << "warning: " << w << "\n";
   for (const auto& path : outputs) out << "wrote " << path.string() << "\n";
