@@ -322,14 +322,6 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
     for (std::size_t s = 0; s < site_count; ++s) models.push_back({s});
   }
   const uncertainty::EnsembleOptions ensemble_options = detail::ensemble_options_for(job, plan);
-  auto select = [](const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
-    const std::set<std::size_t> wanted(sites.begin(), sites.end());
-    std::vector<data::Window> out;
-    for (const auto& w : all) {
-      if (wanted.count(w.site)) out.push_back(w);
-    }
-    return out;
-  };
   const data::IndexRange fit_range = data::index_range(axis, job.periods.fit);
   const auto all_train = data::make_windows(table, job.windows, fit_range, true);
   const auto all_validation =
@@ -346,22 +338,15 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
     const auto& model_sites = models[m];
     const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
     report("training", "model " + model_name, m, models.size());
-    detail::WindowSource training(table, job.windows, select(all_train, model_sites));
-    if (training.size() == 0) {
+    const std::optional<uncertainty::Ensemble> trained =
+        detail::train_model(table, job, ensemble_options, all_train, all_validation, model_sites, m);
+    if (!trained) {
       summary.warnings.push_back("model " + model_name +
                                  ": no training window with an observed target in the fit "
                                  "period; not stored, its sites get no forecast");
       continue;
     }
-    std::vector<std::size_t> window_site;
-    std::map<std::size_t, std::size_t> local_site;
-    for (std::size_t s : model_sites) local_site.emplace(s, local_site.size());
-    for (const auto& w : training.windows()) window_site.push_back(local_site.at(w.site));
-    detail::WindowSource validation(table, job.windows, select(all_validation, model_sites));
-    auto model_options = ensemble_options;
-    model_options.resampling.seed = detail::model_seed(job.seed, m);
-    const uncertainty::Ensemble ensemble = uncertainty::Ensemble::train(
-        model_options, training, window_site, model_sites.size(), validation.size() ? &validation : nullptr);
+    const uncertainty::Ensemble& ensemble = *trained;
     ++summary.models_trained;
     stored_models.push_back(std::to_string(m));
 
@@ -392,7 +377,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
 
     // Calibrators on the calibration period: the same predictions, seed and CQR options as run_job.
     if (job.calibration == CalibrationMethod::none) continue;
-    detail::WindowSource calibration(table, job.windows, select(all_calibration, model_sites));
+    detail::WindowSource calibration(table, job.windows, detail::windows_of_sites(all_calibration, model_sites));
     if (calibration.size() == 0) {
       summary.warnings.push_back("model " + model_name +
                                  ": no calibration window with an observed target; "

@@ -439,14 +439,6 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   }
   const uncertainty::EnsembleOptions ensemble_options = detail::ensemble_options_for(job, plan);
 
-  auto select = [&](const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
-    std::vector<data::Window> out;
-    std::set<std::size_t> wanted(sites.begin(), sites.end());
-    for (const auto& w : all) {
-      if (wanted.count(w.site)) out.push_back(w);
-    }
-    return out;
-  };
   const auto all_train = data::make_windows(table, job.windows, fit_range, true);
   const auto all_validation = validation_range.empty() ? std::vector<data::Window>{}
                                                        : data::make_windows(table, job.windows, validation_range, true);
@@ -497,21 +489,14 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
                                  "trained again");
     }
     const std::size_t records_before = results.training.size();
-    detail::WindowSource training(table, job.windows, select(all_train, model_sites));
-    if (training.size() == 0) {
+    const std::optional<uncertainty::Ensemble> trained =
+        detail::train_model(table, job, ensemble_options, all_train, all_validation, model_sites, m);
+    if (!trained) {
       results.warnings.push_back("model " + model_name + ": no training window with an observed target in the fit "
                                  "period; the network is skipped there");
       continue;
     }
-    std::vector<std::size_t> window_site;
-    std::map<std::size_t, std::size_t> local_site;
-    for (std::size_t s : model_sites) local_site.emplace(s, local_site.size());
-    for (const auto& w : training.windows()) window_site.push_back(local_site.at(w.site));
-    detail::WindowSource validation(table, job.windows, select(all_validation, model_sites));
-    auto model_options = ensemble_options;
-    model_options.resampling.seed = detail::model_seed(job.seed, m);
-    const uncertainty::Ensemble ensemble = uncertainty::Ensemble::train(
-        model_options, training, window_site, model_sites.size(), validation.size() ? &validation : nullptr);
+    const uncertainty::Ensemble& ensemble = *trained;
     ++summary.models_trained;
     for (std::size_t k = 0; k < ensemble.members().size(); ++k) {
       const auto& member = ensemble.members()[k];
@@ -526,7 +511,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     }
 
     // Raw (uncalibrated) network distributions on the test, selection and calibration periods, per site.
-    detail::WindowSource test(table, job.windows, select(all_test, model_sites));
+    detail::WindowSource test(table, job.windows, detail::windows_of_sites(all_test, model_sites));
     if (test.size() > 0) {
       const auto dist = detail::to_target_units(ensemble.predict(test, job.seed + 17), table, test.windows(), leads,
                                                 job.quantiles, job.keep_members);
@@ -550,7 +535,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     }
     for (auto* period : {&raw_selection, &raw_calibration}) {
       const auto& windows = period == &raw_selection ? all_selection : all_calibration;
-      detail::WindowSource source(table, job.windows, select(windows, model_sites));
+      detail::WindowSource source(table, job.windows, detail::windows_of_sites(windows, model_sites));
       if (source.size() == 0) continue;
       const auto dist = detail::to_target_units(ensemble.predict(source, job.seed + (period == &raw_selection ? 23 : 29)),
                                                 table, source.windows(), leads, job.quantiles, false);

@@ -3,6 +3,7 @@
 // trainer from a FeatureTable, and turning ensemble members into quantiles in target units.
 
 #include <filesystem>
+#include <optional>
 #include <span>
 #include <string>
 #include <vector>
@@ -62,6 +63,18 @@ uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const da
 /// final gradient-through-time profile.
 io::TrainingRecord training_record(const std::string& model_name, std::size_t index,
                                    const uncertainty::EnsembleMember& member);
+
+/// The windows of `all` that belong to `sites`, in their order.
+std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all, const std::vector<std::size_t>& sites);
+
+/// Trains model `model` (0-based) of a job — one ensemble on the training windows of `sites`, early stopping on
+/// their validation windows — exactly as the batch job and `fit` both do, so that their seeds and data agree.
+/// Empty when the model has no training window with an observed target.
+std::optional<uncertainty::Ensemble> train_model(const data::FeatureTable& table, const JobConfig& job,
+                                                 const uncertainty::EnsembleOptions& options,
+                                                 const std::vector<data::Window>& all_training,
+                                                 const std::vector<data::Window>& all_validation,
+                                                 const std::vector<std::size_t>& sites, std::size_t model);
 
 /// Seed of the resamples of model `model` (0-based) of a job: distinct per model, fixed by the job seed.
 std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model);

@@ -1,5 +1,7 @@
 #include <algorithm>
 #include <cmath>
+#include <set>
+#include <map>
 #include <optional>
 
 #include "libseq/error.hpp"
@@ -125,6 +127,34 @@ io::TrainingRecord training_record(const std::string& model_name, std::size_t in
   }
   record.seconds = ts.wall_seconds;
   return record;
+}
+
+std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
+  const std::set<std::size_t> wanted(sites.begin(), sites.end());
+  std::vector<data::Window> out;
+  for (const auto& w : all) {
+    if (wanted.count(w.site)) out.push_back(w);
+  }
+  return out;
+}
+
+std::optional<uncertainty::Ensemble> train_model(const data::FeatureTable& table, const JobConfig& job,
+                                                 const uncertainty::EnsembleOptions& options,
+                                                 const std::vector<data::Window>& all_training,
+                                                 const std::vector<data::Window>& all_validation,
+                                                 const std::vector<std::size_t>& sites, std::size_t model) {
+  const WindowSource training(table, job.windows, windows_of_sites(all_training, sites));
+  if (training.size() == 0) return std::nullopt;
+  // Resampling is within each of the model's sites: sites renumbered 0..n-1 in the model's order.
+  std::map<std::size_t, std::size_t> local_site;
+  for (std::size_t s : sites) local_site.emplace(s, local_site.size());
+  std::vector<std::size_t> window_site;
+  for (const auto& w : training.windows()) window_site.push_back(local_site.at(w.site));
+  const WindowSource validation(table, job.windows, windows_of_sites(all_validation, sites));
+  auto model_options = options;
+  model_options.resampling.seed = model_seed(job.seed, model);
+  return uncertainty::Ensemble::train(model_options, training, window_site, sites.size(),
+                                      validation.size() ? &validation : nullptr);
 }
 
 std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model) {
