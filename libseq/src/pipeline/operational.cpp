@@ -403,16 +403,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
         lower.push_back(cal_dist.quantiles[c * level_count + lo]);
         upper.push_back(cal_dist.quantiles[c * level_count + hi]);
       }
-      uncertainty::CalibrationSet set;
-      set.observed = observed;
-      set.lower = lower;
-      set.upper = upper;
-      set.lead = lead_of_case;
-      uncertainty::ConformalOptions conformal;
-      conformal.score = uncertainty::ConformalScore::quantile_pair;
-      conformal.miscoverage = 1 - coverage;
-      conformal.per_lead = true;
-      const auto calibrator = uncertainty::Calibrator::fit(set, conformal);
+      const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage);
       write_calibrator(bundle, interval_prefix(m, i), calibrator.state());
       char label[32];
       std::snprintf(label, sizeof label, "%g", coverage);

@@ -218,16 +218,7 @@ bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& cal
         upper.push_back(set->quantiles[c * levels + hi]);
       }
     }
-    uncertainty::CalibrationSet data;
-    data.observed = observed;
-    data.lower = lower;
-    data.upper = upper;
-    data.lead = lead_of_case;
-    uncertainty::ConformalOptions conformal;
-    conformal.score = uncertainty::ConformalScore::quantile_pair;
-    conformal.miscoverage = 1 - coverage;
-    conformal.per_lead = true;
-    const auto calibrator = uncertainty::Calibrator::fit(data, conformal);
+    const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage);
     for (const auto& lead : calibrator.state().leads) {
       if (std::isinf(lead.score_quantile)) {
         char text[200];

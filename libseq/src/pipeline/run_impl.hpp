@@ -14,6 +14,7 @@
 #include "libseq/train/sequence_source.hpp"
 #include "libseq/io/results.hpp"
 #include "libseq/pipeline/job.hpp"
+#include "libseq/uncertainty/conformal.hpp"
 #include "libseq/uncertainty/ensemble.hpp"
 #include "libseq/uncertainty/mixture.hpp"
 
@@ -63,6 +64,12 @@ uncertainty::EnsembleOptions ensemble_options_for(const JobConfig& job, const da
 /// final gradient-through-time profile.
 io::TrainingRecord training_record(const std::string& model_name, std::size_t index,
                                    const uncertainty::EnsembleMember& member);
+
+/// CQR calibrator (Romano et al. 2019) of one central interval of `coverage`, per lead, from calibration cases:
+/// observations, the raw interval bounds and each case's lead index.
+uncertainty::Calibrator fit_interval_calibrator(std::span<const double> observed, std::span<const double> lower,
+                                                std::span<const double> upper, std::span<const std::size_t> lead,
+                                                double coverage);
 
 /// The windows of `all` that belong to `sites`, in their order.
 std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all, const std::vector<std::size_t>& sites);

@@ -129,6 +129,21 @@ io::TrainingRecord training_record(const std::string& model_name, std::size_t in
   return record;
 }
 
+uncertainty::Calibrator fit_interval_calibrator(std::span<const double> observed, std::span<const double> lower,
+                                                std::span<const double> upper, std::span<const std::size_t> lead,
+                                                double coverage) {
+  uncertainty::CalibrationSet data;
+  data.observed = observed;
+  data.lower = lower;
+  data.upper = upper;
+  data.lead = lead;
+  uncertainty::ConformalOptions conformal;
+  conformal.score = uncertainty::ConformalScore::quantile_pair;
+  conformal.miscoverage = 1 - coverage;
+  conformal.per_lead = true;
+  return uncertainty::Calibrator::fit(data, conformal);
+}
+
 std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
   const std::set<std::size_t> wanted(sites.begin(), sites.end());
   std::vector<data::Window> out;
