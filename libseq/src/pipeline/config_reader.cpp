@@ -1,11 +1,11 @@
 #include "libseq/pipeline/config_reader.hpp"
 
+#include <toml++/toml.h>
 #include <algorithm>
 #include <cmath>
 #include <map>
 #include <set>
 #include <sstream>
-#include <toml++/toml.h>
 
 #include "libseq/error.hpp"
 

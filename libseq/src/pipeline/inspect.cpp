@@ -157,17 +157,19 @@ std::string InspectReport::to_json() const {
     out += ", \"ok\": " + std::string(file.ok() ? "true" : "false");
     out += ", \"format\": " + (file.format ? io::json_string(io::to_string(*file.format)) : std::string("null"));
     if (!file.ok()) {
-      out += ", \"error_kind\": " + io::json_string(file.error_kind) + ", \"error\": " + io::json_string(file.error) + "}";
+      out +=
+          ", \"error_kind\": " + io::json_string(file.error_kind) + ", \"error\": " + io::json_string(file.error) + "}";
       continue;
     }
-    out += ",\n   \"time\": {\"start\": " + io::json_string(file.time_start) + ", \"end\": " + io::json_string(file.time_end) +
-           ", \"step_seconds\": " + std::to_string(file.step_seconds) + ", \"step\": " + io::json_string(file.step) +
-           ", \"count\": " + std::to_string(file.time_count) + "}";
+    out += ",\n   \"time\": {\"start\": " + io::json_string(file.time_start) +
+           ", \"end\": " + io::json_string(file.time_end) + ", \"step_seconds\": " + std::to_string(file.step_seconds) +
+           ", \"step\": " + io::json_string(file.step) + ", \"count\": " + std::to_string(file.time_count) + "}";
     out += ",\n   \"variables\": [";
     for (std::size_t v = 0; v < file.variables.size(); ++v) {
       const auto& var = file.variables[v];
       out += (v ? ", " : "") + std::string("{\"name\": ") + io::json_string(var.name) +
-             ", \"units\": " + io::json_string(var.units) + ", \"standard_name\": " + io::json_string(var.standard_name) + "}";
+             ", \"units\": " + io::json_string(var.units) +
+             ", \"standard_name\": " + io::json_string(var.standard_name) + "}";
     }
     out += "],\n   \"sites\": [";
     for (std::size_t s = 0; s < file.sites.size(); ++s) {
@@ -176,7 +178,8 @@ std::string InspectReport::to_json() const {
              ", \"name\": " + io::json_string(site.name) + ", \"latitude\": " + io::json_number(site.latitude) +
              ", \"longitude\": " + io::json_number(site.longitude) + ", \"missing_fraction\": {";
       for (std::size_t v = 0; v < site.missing_fraction.size() && v < file.variables.size(); ++v) {
-        out += (v ? ", " : "") + io::json_string(file.variables[v].name) + ": " + io::json_number(site.missing_fraction[v]);
+        out += (v ? ", " : "") + io::json_string(file.variables[v].name) + ": " +
+               io::json_number(site.missing_fraction[v]);
       }
       out += "}}";
     }
@@ -185,8 +188,8 @@ std::string InspectReport::to_json() const {
     out += "]}";
   }
   out += "\n ],\n \"file_count\": " + std::to_string(files.size()) +
-         ", \"failed_count\": " + std::to_string(failed_count()) + ",\n \"caution\": " + io::json_string(caution_text()) +
-         "}\n";
+         ", \"failed_count\": " + std::to_string(failed_count()) +
+         ",\n \"caution\": " + io::json_string(caution_text()) + "}\n";
   return out;
 }
 

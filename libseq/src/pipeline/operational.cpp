@@ -277,6 +277,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
   }
   const data::FeaturePlan plan = data::FeaturePlan::fit(panel, job.features, job.periods.fit);
   const data::FeatureTable table(panel, plan);
+  const detail::ScoreScale score_scale(job, plan);
   const auto& axis = panel.axis();
   const std::size_t leads = job.windows.lead_count();
   const std::size_t level_count = job.quantiles.size();
@@ -391,26 +392,33 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
     std::vector<std::size_t> lead_of_case;
     for (std::size_t c = 0; c < cal_dist.cases; ++c) {
       const auto& w = calibration.windows()[c / leads];
-      observed.push_back(table.observed_target(w.site, target_step(job.windows, w.issue, c % leads)));
+      observed.push_back(
+          score_scale.forward(table.observed_target(w.site, target_step(job.windows, w.issue, c % leads))));
       lead_of_case.push_back(c % leads);
     }
+    const bool per_lead = detail::calibrate_per_lead(job, observed, lead_of_case, leads);
     for (std::size_t i = 0; i < job.intervals.size(); ++i) {
       const double coverage = job.intervals[i];
       const std::size_t lo = level_position(job.quantiles, (1 - coverage) / 2);
       const std::size_t hi = level_position(job.quantiles, (1 + coverage) / 2);
       std::vector<double> lower, upper;
       for (std::size_t c = 0; c < cal_dist.cases; ++c) {
-        lower.push_back(cal_dist.quantiles[c * level_count + lo]);
-        upper.push_back(cal_dist.quantiles[c * level_count + hi]);
+        lower.push_back(score_scale.forward(cal_dist.quantiles[c * level_count + lo]));
+        upper.push_back(score_scale.forward(cal_dist.quantiles[c * level_count + hi]));
       }
-      const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage);
+      const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage, per_lead);
       write_calibrator(bundle, interval_prefix(m, i), calibrator.state());
       char label[32];
       std::snprintf(label, sizeof label, "%g", coverage);
       std::string line = "model " + model_name + ", interval " + label + ":";
       for (const auto& lead : calibrator.state().leads) {
         char buffer[96];
-        std::snprintf(buffer, sizeof buffer, " lead %zu n=%zu Q=%.4g;", lead.lead + 1, lead.count, lead.score_quantile);
+        if (per_lead) {
+          std::snprintf(buffer, sizeof buffer, " lead %zu n=%zu Q=%.4g;", lead.lead + 1, lead.count,
+                        lead.score_quantile);
+        } else {
+          std::snprintf(buffer, sizeof buffer, " all leads n=%zu Q=%.4g;", lead.count, lead.score_quantile);
+        }
         line += buffer;
       }
       summary.calibration.push_back(line);
@@ -553,6 +561,7 @@ ForecastResult forecast_from_bundle(const std::filesystem::path& bundle_path,
       panel, job.features, r.scaling("features.dynamic_scaling"), r.scaling("features.static_scaling"),
       r.scaling("features.target_scaling"), split_lines(r.text("features.scaling_site_ids")));
   const data::FeatureTable table(panel, plan);
+  const detail::ScoreScale score_scale(job, plan);
   const auto windows = data::make_issue_windows(table, job.windows, {issue});  // one per site, in panel order
 
   if (job.windows.mode == data::WindowMode::forecast && job.features.lagged_target) {
@@ -612,10 +621,11 @@ ForecastResult forecast_from_bundle(const std::filesystem::path& bundle_path,
         const std::size_t lo = level_position(job.quantiles, (1 - job.intervals[i]) / 2);
         const std::size_t hi = level_position(job.quantiles, (1 + job.intervals[i]) / 2);
         for (std::size_t c = 0; c < dist.cases; ++c) {
-          const auto interval = calibrator.quantile_interval(dist.quantiles[c * level_count + lo],
-                                                             dist.quantiles[c * level_count + hi], c % leads);
-          dist.quantiles[c * level_count + lo] = interval.lower;
-          dist.quantiles[c * level_count + hi] = interval.upper;
+          const auto interval =
+              calibrator.quantile_interval(score_scale.forward(dist.quantiles[c * level_count + lo]),
+                                           score_scale.forward(dist.quantiles[c * level_count + hi]), c % leads);
+          dist.quantiles[c * level_count + lo] = score_scale.inverse(interval.lower);
+          dist.quantiles[c * level_count + hi] = score_scale.inverse(interval.upper);
         }
       }
       detail::sort_case_quantiles(dist.quantiles, level_count);

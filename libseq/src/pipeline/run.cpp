@@ -60,8 +60,10 @@ std::vector<std::string> input_problems(const JobConfig& job, const data::Panel&
   std::vector<std::string> problems;
   auto check = [&](const std::string& key, const std::string& name) {
     if (!panel.find_variable(name)) {
-      problems.push_back(key + ": '" + name + "' is not in " + files + " (by name or standard_name; variables "
-                         "present: " + present + ")");
+      problems.push_back(key + ": '" + name + "' is not in " + files +
+                         " (by name or standard_name; variables "
+                         "present: " +
+                         present + ")");
     }
   };
   check("target.variable", job.features.target);
@@ -135,8 +137,7 @@ std::unique_ptr<baselines::Forecaster> make_baseline(baselines::BaselineKind kin
       baselines::ExpSmoothingOptions o;
       o.model = job.smoothing;
       o.period_steps = season;
-      o.second_period_steps =
-          job.second_seasonal_period ? job.second_seasonal_period : (sub_daily ? 7 * day : 0);
+      o.second_period_steps = job.second_seasonal_period ? job.second_seasonal_period : (sub_daily ? 7 * day : 0);
       return std::make_unique<baselines::ExpSmoothing>(o);
     }
     case baselines::BaselineKind::local_level:
@@ -144,7 +145,6 @@ std::unique_ptr<baselines::Forecaster> make_baseline(baselines::BaselineKind kin
   }
   throw ConfigError("baselines.methods: unknown baseline");
 }
-
 
 // ---------------------------------------------------------------------------------------------------------------
 // Case sets: one site's forecasts on one period, case = row * leads + lead, quantiles case-major.
@@ -190,9 +190,10 @@ void round_to_float(CaseSet& set) {
 // fitted per lead on the pooled `calibration` sets; with CalibrationMethod::adaptive, then adaptive conformal
 // inference (Gibbs & Candès 2021) through each site's test period in issue order, an outcome being used only once
 // it is observed (lead steps after the issue). Returns false when there was nothing to calibrate on.
-bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& calibration,
-                    const std::vector<CaseSet*>& test, std::size_t leads, const std::string& what,
-                    std::vector<std::string>& warnings) {
+bool calibrate_sets(const JobConfig& job, const detail::ScoreScale& scale,
+                    const std::vector<const CaseSet*>& calibration, const std::vector<CaseSet*>& test,
+                    std::size_t leads, const std::string& what, std::vector<std::string>& warnings,
+                    std::vector<std::string>& notes) {
   const std::size_t levels = job.quantiles.size();
   std::vector<double> observed;
   std::vector<std::size_t> lead_of_case;
@@ -201,41 +202,48 @@ bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& cal
     if (set == nullptr) continue;
     cal_sets.push_back(set);
     for (std::size_t c = 0; c < set->observed.size(); ++c) {
-      observed.push_back(set->observed[c]);
+      observed.push_back(scale.forward(set->observed[c]));
       lead_of_case.push_back(c % leads);
     }
   }
   std::vector<bool> seen_lead(leads, false);
-  for (std::size_t c = 0; c < observed.size(); ++c) seen_lead[lead_of_case[c]] = seen_lead[lead_of_case[c]] || std::isfinite(observed[c]);
+  for (std::size_t c = 0; c < observed.size(); ++c)
+    seen_lead[lead_of_case[c]] = seen_lead[lead_of_case[c]] || std::isfinite(observed[c]);
   if (std::find(seen_lead.begin(), seen_lead.end(), false) != seen_lead.end()) return false;
+  const bool per_lead = detail::calibrate_per_lead(job, observed, lead_of_case, leads);
+  if (!per_lead && leads > 1 && job.calibration_leads == CalibrationLeads::automatic) {
+    notes.push_back(what + ": intervals calibrated over all leads together (a lead has fewer than " +
+                    std::to_string(job.calibration_min_cases) + " calibration cases; calibration.min_cases_per_lead)");
+  }
   for (double coverage : job.intervals) {
     const std::size_t lo = level_position(job.quantiles, (1 - coverage) / 2);
     const std::size_t hi = level_position(job.quantiles, (1 + coverage) / 2);
     std::vector<double> lower, upper;
     for (const CaseSet* set : cal_sets) {
       for (std::size_t c = 0; c < set->observed.size(); ++c) {
-        lower.push_back(set->quantiles[c * levels + lo]);
-        upper.push_back(set->quantiles[c * levels + hi]);
+        lower.push_back(scale.forward(set->quantiles[c * levels + lo]));
+        upper.push_back(scale.forward(set->quantiles[c * levels + hi]));
       }
     }
-    const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage);
+    const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage, per_lead);
     for (const auto& lead : calibrator.state().leads) {
       if (std::isinf(lead.score_quantile)) {
-        char text[200];
+        char text[240];
+        const std::string which = per_lead ? "lead " + std::to_string(lead.lead + 1) : "all leads pooled";
         std::snprintf(text, sizeof text,
-                      "%s: the %g %% interval of lead %zu is unbounded: %zu calibration case(s) are too few for rank "
+                      "%s: the %g %% interval (%s) is unbounded: %zu calibration case(s) are too few for rank "
                       "%zu (split conformal needs n >= %zu); lengthen periods.calibration",
-                      what.c_str(), coverage * 100, lead.lead + 1, lead.count, lead.rank, lead.rank);
+                      what.c_str(), coverage * 100, which.c_str(), lead.count, lead.rank, lead.rank);
         warnings.push_back(text);
       }
     }
     for (CaseSet* set : test) {
       if (job.calibration == CalibrationMethod::split_conformal) {
         for (std::size_t c = 0; c < set->observed.size(); ++c) {
-          const auto interval =
-              calibrator.quantile_interval(set->quantiles[c * levels + lo], set->quantiles[c * levels + hi], c % leads);
-          set->quantiles[c * levels + lo] = interval.lower;
-          set->quantiles[c * levels + hi] = interval.upper;
+          const auto interval = calibrator.quantile_interval(scale.forward(set->quantiles[c * levels + lo]),
+                                                             scale.forward(set->quantiles[c * levels + hi]), c % leads);
+          set->quantiles[c * levels + lo] = scale.inverse(interval.lower);
+          set->quantiles[c * levels + hi] = scale.inverse(interval.upper);
         }
         continue;
       }
@@ -265,13 +273,13 @@ bool calibrate_sets(const JobConfig& job, const std::vector<const CaseSet*>& cal
             return true;
           });
           const std::size_t c = row * leads + k;
-          const double raw_lo = set->quantiles[c * levels + lo];
-          const double raw_hi = set->quantiles[c * levels + hi];
+          const double raw_lo = scale.forward(set->quantiles[c * levels + lo]);
+          const double raw_hi = scale.forward(set->quantiles[c * levels + hi]);
           const auto interval = aci.quantile_interval(raw_lo, raw_hi);
-          set->quantiles[c * levels + lo] = interval.lower;
-          set->quantiles[c * levels + hi] = interval.upper;
+          set->quantiles[c * levels + lo] = scale.inverse(interval.lower);
+          set->quantiles[c * levels + hi] = scale.inverse(interval.upper);
           const std::size_t due = job.windows.mode == data::WindowMode::forecast ? issue + 1 + k : issue;
-          pending.push_back({due, raw_lo, raw_hi, set->observed[c]});
+          pending.push_back({due, raw_lo, raw_hi, scale.forward(set->observed[c])});
         }
       }
     }
@@ -301,21 +309,29 @@ CaseSet set_from_block(const io::SiteResults& site, const io::ForecastBlock& blo
 }
 
 // Mean pinball loss over the levels (a discretisation of the CRPS) of the cases of lead k with an observation.
-double mean_pinball(const CaseSet& set, const std::vector<double>& levels, std::size_t leads, std::size_t k) {
-  double total = 0.0;
-  std::size_t count = 0;
+// Per-case mean pinball loss over the levels of lead k (NaN where the target or a quantile is missing).
+std::vector<double> pinball_losses(const CaseSet& set, const std::vector<double>& levels, std::size_t leads,
+                                   std::size_t k) {
+  std::vector<double> out;
   for (std::size_t c = k; c < set.observed.size(); c += leads) {
     const double y = set.observed[c];
-    if (!std::isfinite(y)) continue;
     double sum = 0.0;
-    bool ok = true;
     for (std::size_t q = 0; q < levels.size(); ++q) {
       const double v = set.quantiles[c * levels.size() + q];
-      if (!std::isfinite(v)) ok = false;
       sum += (y - v) * (levels[q] - (y < v ? 1.0 : 0.0));
     }
-    if (!ok) continue;
-    total += sum / static_cast<double>(levels.size());
+    out.push_back(std::isfinite(y) && std::isfinite(sum) ? sum / static_cast<double>(levels.size()) : NAN);
+  }
+  return out;
+}
+
+// Mean of the finite values; +inf when there is none.
+double mean_finite(const std::vector<double>& values) {
+  double total = 0.0;
+  std::size_t count = 0;
+  for (double v : values) {
+    if (!std::isfinite(v)) continue;
+    total += v;
     ++count;
   }
   return count ? total / static_cast<double>(count) : INFINITY;
@@ -334,9 +350,8 @@ void blend_lead(const CaseSet& a, const CaseSet& b, double w, std::size_t leads,
 }
 
 std::string now_iso() {
-  const auto seconds = std::chrono::duration_cast<std::chrono::seconds>(
-                           std::chrono::system_clock::now().time_since_epoch())
-                           .count();
+  const auto seconds =
+      std::chrono::duration_cast<std::chrono::seconds>(std::chrono::system_clock::now().time_since_epoch()).count();
   return data::format_iso8601(seconds);
 }
 
@@ -354,13 +369,12 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     job.training.seed = job.seed;
     job.resampling.seed = job.seed;
   }
-  const int threads = run_options.threads.value_or(job.threads) > 0 ? run_options.threads.value_or(job.threads)
-                                                                     : omp_get_num_procs();
+  const int threads =
+      run_options.threads.value_or(job.threads) > 0 ? run_options.threads.value_or(job.threads) : omp_get_num_procs();
   omp_set_num_threads(threads);
   auto report = [&](const std::string& stage, const std::string& detail, std::size_t done, std::size_t total) {
     if (!run_options.progress) return;
-    run_options.progress({stage, detail, done, total,
-                          std::chrono::duration<double>(Clock::now() - started).count()});
+    run_options.progress({stage, detail, done, total, std::chrono::duration<double>(Clock::now() - started).count()});
   };
 
   io::RunResults results;
@@ -379,6 +393,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   }
   const data::FeaturePlan plan = data::FeaturePlan::fit(panel, job.features, job.periods.fit);
   const data::FeatureTable table(panel, plan);
+  const detail::ScoreScale score_scale(job, plan);
   const auto& axis = panel.axis();
   const data::IndexRange fit_range = data::index_range(axis, job.periods.fit);
   const data::IndexRange validation_range =
@@ -476,14 +491,16 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
         ++summary.models_resumed;
         continue;
       }
-      results.warnings.push_back("model " + model_name + ": its checkpoint belongs to another job, seed or input; "
+      results.warnings.push_back("model " + model_name +
+                                 ": its checkpoint belongs to another job, seed or input; "
                                  "trained again");
     }
     const std::size_t records_before = results.training.size();
     const std::optional<uncertainty::Ensemble> trained =
         detail::train_model(table, job, ensemble_options, all_train, all_validation, model_sites, m);
     if (!trained) {
-      results.warnings.push_back("model " + model_name + ": no training window with an observed target in the fit "
+      results.warnings.push_back("model " + model_name +
+                                 ": no training window with an observed target in the fit "
                                  "period; the network is skipped there");
       continue;
     }
@@ -494,8 +511,8 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
       const auto& ts = member.summary;
       io::TrainingRecord record = detail::training_record(model_name, k, member);
       if (ts.termination == train::TerminationReason::diverged) {
-        results.warnings.push_back("model " + model_name + ", member " + std::to_string(k) +
-                                   ": training diverged (" + ts.termination_detail + "); member left out");
+        results.warnings.push_back("model " + model_name + ", member " + std::to_string(k) + ": training diverged (" +
+                                   ts.termination_detail + "); member left out");
       }
       results.training.push_back(std::move(record));
       results.provenance.seeds.push_back(member.seed);
@@ -528,8 +545,9 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
       const auto& windows = period == &raw_selection ? all_selection : all_calibration;
       detail::WindowSource source(table, job.windows, detail::windows_of_sites(windows, model_sites));
       if (source.size() == 0) continue;
-      const auto dist = detail::to_target_units(ensemble.predict(source, job.seed + (period == &raw_selection ? 23 : 29)),
-                                                table, source.windows(), leads, job.quantiles, false);
+      const auto dist =
+          detail::to_target_units(ensemble.predict(source, job.seed + (period == &raw_selection ? 23 : 29)), table,
+                                  source.windows(), leads, job.quantiles, false);
       split_by_site(source.windows(), dist, table, job.windows, leads, *period);
     }
     for (std::size_t s : model_sites) {
@@ -574,9 +592,10 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
         calibration.push_back(&raw_calibration[s]);
         test.push_back(&network_test[s]);
       }
-      if (!calibrate_sets(job, calibration, test, leads, "network", results.warnings)) {
-        results.warnings.push_back("network: no calibration case with an observed target for every lead; its "
-                                   "intervals are left uncalibrated");
+      if (!calibrate_sets(job, score_scale, calibration, test, leads, "network", results.warnings, results.notes)) {
+        results.warnings.push_back(
+            "network: no calibration case with an observed target for every lead; its "
+            "intervals are left uncalibrated");
       }
     }
   }
@@ -610,8 +629,8 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     for (const auto& in : inputs) series.inputs.emplace_back(in);
     series.axis = axis;
     // MASE scale: in-sample one-step naive error on the fit period (Hyndman & Koehler 2006).
-    mase_scales[s] = metrics::naive_mae_scale(
-        std::span<const double>(target).subspan(fit_range.begin, fit_range.size()), 1);
+    mase_scales[s] =
+        metrics::naive_mae_scale(std::span<const double>(target).subspan(fit_range.begin, fit_range.size()), 1);
     const auto& issues = cases[s].issues;
     if (issues.empty()) continue;
     // Simulation of step t is the lead-1 forecast issued at t − 1.
@@ -633,14 +652,15 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
         const auto quantiles =
             baselines::forecast_quantiles(*forecaster, series, baseline_issues, leads, job.quantiles, calibration);
         io::ForecastBlock block = make_block(name, issues.size(), leads, job.quantiles);
-        const std::size_t median = static_cast<std::size_t>(
-            std::find_if(job.quantiles.begin(), job.quantiles.end(), [](double q) { return std::abs(q - 0.5) < 1e-9; }) -
-            job.quantiles.begin());
+        const std::size_t median =
+            static_cast<std::size_t>(std::find_if(job.quantiles.begin(), job.quantiles.end(),
+                                                  [](double q) { return std::abs(q - 0.5) < 1e-9; }) -
+                                     job.quantiles.begin());
         for (std::size_t i = 0; i < issues.size(); ++i) {
           for (std::size_t k = 0; k < leads; ++k) {
             block.mean[i * leads + k] = static_cast<float>(points.value(i, k));
-            block.median[i * leads + k] = static_cast<float>(median < level_count ? quantiles.value(i, k, median)
-                                                                                  : points.value(i, k));
+            block.median[i * leads + k] =
+                static_cast<float>(median < level_count ? quantiles.value(i, k, median) : points.value(i, k));
             for (std::size_t q = 0; q < level_count; ++q) {
               block.quantiles[(i * leads + k) * level_count + q] = static_cast<float>(quantiles.value(i, k, q));
             }
@@ -697,33 +717,73 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     CaseSet final_calibration = raw_calibration[s];
     std::string choice;
     for (std::size_t k = 0; k < leads; ++k) {
-      double best = mean_pinball(raw_selection[s], job.quantiles, leads, k);
-      std::size_t best_b = 0;
-      double best_w = 1.0;
+      // Candidates: the network alone, then every baseline with network weights 0, 0.1, ..., 0.9.
+      struct Candidate {
+        std::size_t baseline;
+        double weight;
+        std::vector<double> losses;
+        double mean;
+      };
+      std::vector<Candidate> candidates;
+      auto add = [&](std::size_t b, double w, const CaseSet& set) {
+        auto losses = pinball_losses(set, job.quantiles, leads, k);
+        const double mean = mean_finite(losses);
+        candidates.push_back({b, w, std::move(losses), mean});
+      };
+      add(0, 1.0, raw_selection[s]);
       for (std::size_t b = 0; b < baseline_sets[s].size(); ++b) {
         CaseSet blended = raw_selection[s];
         for (int step = 0; step < 10; ++step) {
           const double w = step / 10.0;
           blend_lead(raw_selection[s], baseline_sets[s][b].first, w, leads, k, level_count, blended);
-          const double score = mean_pinball(blended, job.quantiles, leads, k);
-          if (score < best) {
-            best = score;
-            best_b = b;
-            best_w = w;
-          }
+          add(b, w, blended);
         }
       }
+      std::size_t best = 0;
+      for (std::size_t i = 1; i < candidates.size(); ++i) {
+        if (candidates[i].mean < candidates[best].mean) best = i;
+      }
+      // One-standard-error rule along the best candidate's partner baseline: the smallest network weight whose
+      // loss exceeds the best by at most one standard error of the paired loss difference (lags up to the
+      // forecasts' overlap, as Diebold & Mariano 1995).
+      std::size_t partner = candidates[best].baseline;
+      if (best == 0) {
+        std::size_t best_blend = 1;
+        for (std::size_t i = 2; i < candidates.size(); ++i) {
+          if (candidates[i].mean < candidates[best_blend].mean) best_blend = i;
+        }
+        partner = candidates[best_blend].baseline;
+      }
+      const std::size_t overlap =
+          job.windows.mode == data::WindowMode::forecast ? k / std::max<std::size_t>(1, job.windows.issue_every) : 0;
+      std::size_t chosen = best;
+      for (std::size_t i = 0; i < candidates.size(); ++i) {
+        const auto& c = candidates[i];
+        if (!std::isfinite(c.mean) || (i > 0 && c.baseline != partner)) continue;
+        const double margin = detail::difference_standard_error(c.losses, candidates[best].losses, overlap);
+        if (!(c.mean - candidates[best].mean <= margin)) continue;
+        const auto& current = candidates[chosen];
+        if (c.weight < current.weight - 1e-9 || (std::abs(c.weight - current.weight) < 1e-9 && c.mean < current.mean)) {
+          chosen = i;
+        }
+      }
+      const std::size_t best_b = candidates[chosen].baseline;
+      const double best_w = candidates[chosen].weight;
       blend_lead(raw_test[s], baseline_tests[s][best_b], best_w, leads, k, level_count, final_test);
-      blend_lead(raw_calibration[s], baseline_sets[s][best_b].second, best_w, leads, k, level_count,
-                 final_calibration);
-      char text[160];
+      blend_lead(raw_calibration[s], baseline_sets[s][best_b].second, best_w, leads, k, level_count, final_calibration);
+      char text[240];
       std::snprintf(text, sizeof text, "%slead %lld: %.1f network + %.1f %s", k ? "; " : "",
                     static_cast<long long>(results.leads[k]), best_w, 1 - best_w, baseline_names[s][best_b].c_str());
       choice += text;
+      if (chosen != best) {
+        std::snprintf(text, sizeof text, " (lowest loss: %.1f network + %.1f %s)", candidates[best].weight,
+                      1 - candidates[best].weight, baseline_names[s][candidates[best].baseline].c_str());
+        choice += text;
+      }
     }
     if (job.calibration != CalibrationMethod::none) {
-      calibrate_sets(job, {&final_calibration}, {&final_test}, leads, "site " + panel.sites()[s].id + ", final",
-                     results.warnings);
+      calibrate_sets(job, score_scale, {&final_calibration}, {&final_test}, leads,
+                     "site " + panel.sites()[s].id + ", final", results.warnings, results.notes);
     }
     results.sites[s].methods.push_back(block_from_set(final_method_name, final_test, job.quantiles));
     results.notes.push_back("site " + panel.sites()[s].id + ", final forecast: " + choice);
@@ -816,9 +876,8 @@ std::string RunSummary::full_report() const {
     if (coverage_name.empty() && row.metric.rfind("coverage_", 0) == 0) coverage_name = row.metric;
   }
   const bool load_like = results.step_seconds < 86400;
-  const std::vector<std::string> columns =
-      load_like ? std::vector<std::string>{"mape", "rmse", "crps", coverage_name}
-                : std::vector<std::string>{"nse", "kge", "crps", coverage_name};
+  const std::vector<std::string> columns = load_like ? std::vector<std::string>{"mape", "rmse", "crps", coverage_name}
+                                                     : std::vector<std::string>{"nse", "kge", "crps", coverage_name};
   std::ostringstream out;
   char line[256];
   std::snprintf(line, sizeof line, "%-16s %-16s", "site", "method");

@@ -10,10 +10,10 @@
 
 #include "libseq/data/windows.hpp"
 #include "libseq/io/read_options.hpp"
-#include "libseq/nn/network.hpp"
-#include "libseq/train/sequence_source.hpp"
 #include "libseq/io/results.hpp"
+#include "libseq/nn/network.hpp"
 #include "libseq/pipeline/job.hpp"
+#include "libseq/train/sequence_source.hpp"
 #include "libseq/uncertainty/conformal.hpp"
 #include "libseq/uncertainty/ensemble.hpp"
 #include "libseq/uncertainty/mixture.hpp"
@@ -47,7 +47,7 @@ struct CaseDistributions {
   std::vector<double> median;     ///< cases
   std::vector<double> mean;       ///< cases
   std::size_t member_count = 0;
-  std::vector<double> members;    ///< cases × member_count, in target units (empty unless kept)
+  std::vector<double> members;  ///< cases × member_count, in target units (empty unless kept)
 };
 
 /// Mixes members (in the network's scaled, transformed space) and maps the result back to target units through
@@ -67,9 +67,43 @@ io::TrainingRecord training_record(const std::string& model_name, std::size_t in
 
 /// CQR calibrator (Romano et al. 2019) of one central interval of `coverage`, per lead, from calibration cases:
 /// observations, the raw interval bounds and each case's lead index.
+/// `per_lead` false pools the cases of all leads into one calibrator.
 uncertainty::Calibrator fit_interval_calibrator(std::span<const double> observed, std::span<const double> lower,
                                                 std::span<const double> upper, std::span<const std::size_t> lead,
-                                                double coverage);
+                                                double coverage, bool per_lead);
+
+/// Whether intervals are calibrated per lead (calibration.leads): "each" always, "pooled" never, "auto" when every
+/// one of the `leads` leads has at least calibration.min_cases_per_lead cases with an observed target.
+bool calibrate_per_lead(const JobConfig& job, std::span<const double> observed, std::span<const std::size_t> lead,
+                        std::size_t leads);
+
+/// The scale of conformity scores (calibration.scale): the target transform's, or the target's units. Calibration
+/// maps observations and interval bounds through forward(), computes CQR scores and widens there, and maps the
+/// bounds back through inverse(). A fixed increasing map keeps split conformal's coverage guarantee: the event
+/// "y in [lo, hi]" is the same on both scales (Romano et al. 2019 hold for any score computed from the calibration
+/// cases alone). On the log scale a widening by Q multiplies the bounds by e^±Q, so a high-flow season is widened
+/// in proportion to its flows rather than by the low-flow season's absolute errors.
+class ScoreScale {
+ public:
+  ScoreScale(const JobConfig& job, const data::FeaturePlan& plan);
+  /// The transform, or the identity; values below the transform's domain map to its lower limit (−inf for log).
+  double forward(double y) const;
+  /// The inverse transform; the lower limit maps back to the domain's edge (−offset).
+  double inverse(double z) const;
+  /// Whether forward() is the identity.
+  bool identity() const { return identity_; }
+
+ private:
+  const data::FeaturePlan* plan_;
+  bool identity_;
+  double floor_;  // forward() of values at or below the domain's edge
+};
+
+/// Standard error of the mean of d = a − b over the cases where both are finite, with the autocovariances of d up
+/// to lag `overlap` (the rectangular window of Diebold & Mariano 1995 for h-step forecasts, overlap = h − 1, as R
+/// `forecast::dm.test` with varestimator "acf"); the lag-0 variance alone when that sum is not positive. 0 when
+/// fewer than two cases.
+double difference_standard_error(const std::vector<double>& a, const std::vector<double>& b, std::size_t overlap);
 
 /// The windows of `all` that belong to `sites`, in their order.
 std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all, const std::vector<std::size_t>& sites);

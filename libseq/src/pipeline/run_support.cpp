@@ -1,8 +1,9 @@
 #include <algorithm>
 #include <cmath>
-#include <set>
+#include <limits>
 #include <map>
 #include <optional>
+#include <set>
 
 #include "libseq/error.hpp"
 #include "libseq/io/reader.hpp"
@@ -131,7 +132,7 @@ io::TrainingRecord training_record(const std::string& model_name, std::size_t in
 
 uncertainty::Calibrator fit_interval_calibrator(std::span<const double> observed, std::span<const double> lower,
                                                 std::span<const double> upper, std::span<const std::size_t> lead,
-                                                double coverage) {
+                                                double coverage, bool per_lead) {
   uncertainty::CalibrationSet data;
   data.observed = observed;
   data.lower = lower;
@@ -140,11 +141,69 @@ uncertainty::Calibrator fit_interval_calibrator(std::span<const double> observed
   uncertainty::ConformalOptions conformal;
   conformal.score = uncertainty::ConformalScore::quantile_pair;
   conformal.miscoverage = 1 - coverage;
-  conformal.per_lead = true;
+  conformal.per_lead = per_lead;
   return uncertainty::Calibrator::fit(data, conformal);
 }
 
-std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all, const std::vector<std::size_t>& sites) {
+ScoreScale::ScoreScale(const JobConfig& job, const data::FeaturePlan& plan)
+    : plan_(&plan),
+      identity_(job.calibration_scale == CalibrationScale::target ||
+                job.features.transform == data::TargetTransform::none),
+      floor_(-std::numeric_limits<double>::infinity()) {
+  if (job.features.transform == data::TargetTransform::sqrt) floor_ = 0.0;
+  if (job.features.transform == data::TargetTransform::box_cox && job.features.box_cox_lambda > 1e-12) {
+    floor_ = -1.0 / job.features.box_cox_lambda;
+  }
+}
+
+double ScoreScale::forward(double y) const {
+  if (identity_ || std::isnan(y)) return y;
+  const double z = plan_->transform_target(y);
+  return std::isnan(z) ? floor_ : z;  // NaN only below the domain (y + offset <= 0): the transform's limit there
+}
+
+double ScoreScale::inverse(double z) const {
+  if (identity_ || std::isnan(z)) return z;
+  if (z == std::numeric_limits<double>::infinity()) return z;
+  return z <= floor_ ? -plan_->options().transform_offset : plan_->inverse_transform_target(z);
+}
+
+bool calibrate_per_lead(const JobConfig& job, std::span<const double> observed, std::span<const std::size_t> lead,
+                        std::size_t leads) {
+  if (job.calibration_leads == CalibrationLeads::each) return true;
+  if (job.calibration_leads == CalibrationLeads::pooled) return false;
+  if (leads <= 1) return true;
+  std::vector<std::size_t> count(leads, 0);
+  for (std::size_t c = 0; c < observed.size() && c < lead.size(); ++c) {
+    if (std::isfinite(observed[c]) && lead[c] < leads) ++count[lead[c]];
+  }
+  return *std::min_element(count.begin(), count.end()) >= job.calibration_min_cases;
+}
+
+double difference_standard_error(const std::vector<double>& a, const std::vector<double>& b, std::size_t overlap) {
+  std::vector<double> d;
+  for (std::size_t i = 0; i < a.size() && i < b.size(); ++i) {
+    if (std::isfinite(a[i]) && std::isfinite(b[i])) d.push_back(a[i] - b[i]);
+  }
+  const std::size_t n = d.size();
+  if (n < 2) return 0.0;
+  double mean = 0.0;
+  for (double v : d) mean += v;
+  mean /= static_cast<double>(n);
+  auto autocovariance = [&](std::size_t lag) {
+    double sum = 0.0;
+    for (std::size_t i = lag; i < n; ++i) sum += (d[i] - mean) * (d[i - lag] - mean);
+    return sum / static_cast<double>(n);
+  };
+  const double gamma0 = autocovariance(0);
+  double variance = gamma0;
+  for (std::size_t lag = 1; lag <= overlap && lag < n; ++lag) variance += 2 * autocovariance(lag);
+  if (!(variance > 0)) variance = gamma0;
+  return std::sqrt(variance / static_cast<double>(n));
+}
+
+std::vector<data::Window> windows_of_sites(const std::vector<data::Window>& all,
+                                           const std::vector<std::size_t>& sites) {
   const std::set<std::size_t> wanted(sites.begin(), sites.end());
   std::vector<data::Window> out;
   for (const auto& w : all) {
@@ -189,7 +248,8 @@ data::Panel read_joined_panel(const std::vector<std::filesystem::path>& files, c
     const data::Panel& next = result.panel;
     if (!(next.axis() == joined->axis())) {
       throw DataError(file.string() + ": time axis " + data::format_iso8601(next.axis().start()) + " step " +
-                      next.axis().describe_step() + " differs from the first file's; files read together must "
+                      next.axis().describe_step() +
+                      " differs from the first file's; files read together must "
                       "share the time axis");
     }
     if (next.variable_count() != joined->variable_count()) {

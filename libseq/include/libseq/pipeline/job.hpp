@@ -34,6 +34,21 @@ enum class CalibrationMethod {
 };
 std::string to_string(CalibrationMethod method);
 
+/// The scale on which conformity scores are computed and interval bounds widened or narrowed.
+enum class CalibrationScale {
+  transformed,  ///< the target transform's scale (log, sqrt, Box-Cox): a relative adjustment of the bounds
+  target        ///< the target's own units: the same additive adjustment at every flow
+};
+std::string to_string(CalibrationScale scale);
+
+/// Whether each lead time gets its own calibration or all leads share one.
+enum class CalibrationLeads {
+  automatic,  ///< per lead when every lead has calibration.min_cases_per_lead cases, else pooled
+  each,       ///< always per lead
+  pooled      ///< always one calibration over all leads
+};
+std::string to_string(CalibrationLeads leads);
+
 /// Everything a job asks for.
 struct JobConfig {
   std::string name = "runnel job";
@@ -42,8 +57,8 @@ struct JobConfig {
   std::uint64_t seed = 1;
   int threads = 0;  ///< 0 = all available
 
-  std::vector<std::filesystem::path> files;  ///< resolved against the job file's folder
-  std::vector<std::string> sites;            ///< empty = all
+  std::vector<std::filesystem::path> files;                ///< resolved against the job file's folder
+  std::vector<std::string> sites;                          ///< empty = all
   std::vector<std::pair<std::string, std::string>> units;  ///< variable → units to convert to
 
   data::FeatureOptions features;
@@ -59,6 +74,9 @@ struct JobConfig {
 
   CalibrationMethod calibration = CalibrationMethod::split_conformal;
   double adaptive_step = 0.005;
+  CalibrationScale calibration_scale = CalibrationScale::transformed;
+  CalibrationLeads calibration_leads = CalibrationLeads::automatic;
+  std::size_t calibration_min_cases = 100;  ///< per lead, for CalibrationLeads::automatic
 
   std::vector<baselines::BaselineKind> baselines;
   std::size_t seasonal_period = 0;         ///< steps; 0 = one day of steps (sub-daily) or 365 (daily)
@@ -70,7 +88,7 @@ struct JobConfig {
 
   std::vector<double> quantiles = {0.05, 0.1, 0.25, 0.5, 0.75, 0.9, 0.95};
   std::vector<double> intervals = {0.8, 0.9};  ///< central interval coverages scored and calibrated
-  std::vector<std::string> metrics;             ///< empty = all applicable
+  std::vector<std::string> metrics;            ///< empty = all applicable
   std::size_t bootstrap_resamples = 0;
 
   std::filesystem::path output_directory = "runnel-output";
@@ -80,7 +98,7 @@ struct JobConfig {
   bool write_report = true;
   bool keep_members = false;
 
-  std::string job_text;               ///< the file, verbatim
+  std::string job_text;  ///< the file, verbatim
   std::filesystem::path job_path;
 };
 
