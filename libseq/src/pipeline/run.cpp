@@ -856,7 +856,8 @@ std::string RunSummary::brief_report() const {
       out << "note: " << (n.size() > 160 ? n.substr(0, 157) + "..." : n) << "\n";
     }
   } else {
-    out << results.notes.size() << " notes (the final forecast's weights per site) are in results.h5 /notes\n";
+    out << results.notes.size()
+        << " notes (the final forecast's weights and calibration choices per site) are in results.h5 /notes\n";
   }
   if (!results.notes.empty() && results.notes.size() <= 5) {
     out << "(notes in full: results.h5 /notes)\n";
