@@ -3,8 +3,10 @@
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
+#include <exception>
 #include <numbers>
 #include <sstream>
+#include <thread>
 
 #include "libseq/error.hpp"
 
@@ -165,11 +167,79 @@ class FlushSubnormals {
 #endif
 };
 
+
+template <typename Mat>
+void ensure_size(Mat& m, std::size_t rows, std::size_t cols) {
+  if (static_cast<std::size_t>(m.rows()) != rows || static_cast<std::size_t>(m.cols()) != cols) {
+    m.resize(static_cast<Eigen::Index>(rows), static_cast<Eigen::Index>(cols));
+  }
+}
+
+// Runs fn(slice) for every slice, on up to `threads` threads (slice k on thread k mod threads). Each slice writes
+// only its own workspace, so the result does not depend on the thread count. Worker threads set their own MXCSR
+// (it is per thread); the first exception is rethrown in the caller.
+template <typename SliceT, typename Fn>
+void for_each_slice(std::vector<SliceT>& slices, std::size_t threads, const Fn& fn) {
+  const std::size_t workers = std::min(threads, slices.size());
+  if (workers <= 1) {
+    for (auto& slice : slices) fn(slice);
+    return;
+  }
+  std::vector<std::exception_ptr> errors(workers);
+  const auto work = [&](std::size_t k) {
+    try {
+      const FlushSubnormals flush;
+      for (std::size_t i = k; i < slices.size(); i += workers) fn(slices[i]);
+    } catch (...) {
+      errors[k] = std::current_exception();
+    }
+  };
+  std::vector<std::thread> pool;
+  pool.reserve(workers - 1);
+  for (std::size_t k = 1; k < workers; ++k) pool.emplace_back(work, k);
+  work(0);
+  for (auto& thread : pool) thread.join();
+  for (const auto& error : errors) {
+    if (error) std::rethrow_exception(error);
+  }
+}
+
 }  // namespace
+
+// One slice of the batch: sequences [first, first + size). Everything a forward/backward pass of the slice writes.
+template <typename Scalar>
+struct Network<Scalar>::Slice {
+  using Mat = Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+  struct Layer {
+    Mat pre;             // T·n × G·H: input projection + biases, then the gate activations of each step; the
+                         // backward sweep overwrites step t with d loss / d (pre-activations) once t is done
+    Mat hidden;          // (T+1)·n × H: rows [0,n) the initial state, rows [(t+1)n, (t+2)n) h_t
+    Mat cell;            // LSTM: (T+1)·n × H, like hidden
+    Mat recurrent_n;     // GRU: T·n × H, U_n h̃_{t−1} + b_hn; the backward overwrites it with d loss / d (U_n h̃ + b_hn)
+    Mat hidden_dropped;  // T·n × H: h̃_{t−1} = h_{t−1} ⊙ recurrent mask (only with recurrent dropout)
+    Mat input;           // T·n × D_l: dropped layer input (only when a dropout mask applies to it)
+    const Scalar* input_data = nullptr;  // the layer input actually used, T·n × D_l row-major
+  };
+  std::size_t first = 0, size = 0;
+  std::vector<Layer> layers;
+  Mat inputs;                      // T·n × D: the slice's inputs, gathered (only when the batch has several slices)
+  std::vector<std::uint8_t> mask;  // T·n: the slice's step mask, gathered (several slices and a masked batch)
+  const Scalar* input_data = nullptr;
+  const std::uint8_t* mask_data = nullptr;
+  Mat bias;                        // 1 × G·H: b_ih + b_hh (GRU: b_hn left out, it sits inside the reset gate)
+  Mat static_projection;           // n × G·H
+  Mat scratch;                     // n × G·H: GRU recurrent product (forward), recurrent-side gradient (backward)
+  Mat d_output, d_input;           // T·n × H, T·n × D_l: gradient wrt a layer's outputs / inputs
+  Mat dh, carry_h, carry_c, rec;   // n × H
+  Mat head_input;                  // n × H
+  Mat static_gate_sums;            // n × G·H
+  std::vector<Scalar> gradients;   // parameter gradient of this slice (several slices only)
+  std::vector<Scalar> norms_sq;    // steps × layers: squared norm of d loss / d h_t over the slice
+};
 
 template <typename Scalar>
 struct Network<Scalar>::Workspace {
-  using Mat = Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+  using Mat = typename Slice::Mat;
 
   struct Offsets {
     std::size_t input_weights, recurrent_weights, input_bias, recurrent_bias;
@@ -177,28 +247,16 @@ struct Network<Scalar>::Workspace {
   std::vector<Offsets> offsets;
   std::size_t static_weights = 0, head_weights = 0, head_bias = 0;
 
-  struct Layer {
-    Mat pre;             // T·B × G·H: input projection + biases, then the gate activations of each step
-    Mat hidden;          // (T+1)·B × H: rows [0,B) the initial state, rows [(t+1)B, (t+2)B) h_t
-    Mat cell;            // LSTM: (T+1)·B × H, like hidden
-    Mat recurrent_n;     // GRU: T·B × H, U_n h̃_{t−1} + b_hn (needed by the reset-gate derivative)
-    Mat hidden_dropped;  // T·B × H: h̃_{t−1} = h_{t−1} ⊙ recurrent mask (only with recurrent dropout)
-    Mat input;           // T·B × D_l: dropped layer input (only when a dropout mask applies to it)
-    Mat recurrent_mask;  // B × H (empty = no recurrent dropout this pass)
-    Mat output_mask;     // B × H (empty = no output dropout this pass)
-    const Scalar* input_data = nullptr;  // the layer input actually used, T·B × D_l row-major
-  };
-  std::vector<Layer> layers;
-  Mat input_mask;                // B × D (empty = no input dropout this pass)
-  Mat static_projection;         // B × G·H
-  Mat recurrent;                 // B × G·H scratch: U h̃_{t−1} + b_hh
-  Mat d_pre, d_recurrent;        // T·B × G·H: d loss / d (input side), d (recurrent side) pre-activations
-  Mat d_output, d_input;         // T·B × H, T·B × max(D, H): gradient wrt a layer's outputs / inputs
-  Mat dh, dc, carry_h, carry_c;  // B × H
-  Mat head_input, d_head;        // B × H, B × outputs
-  Mat static_gate_sums;          // B × G·H
+  // Dropout masks of the whole batch (one row per sequence), drawn in one fixed order before slicing so that the
+  // draws do not depend on the slicing.
+  Mat input_mask;                       // B × D (empty = no input dropout this pass)
+  std::vector<Mat> recurrent_masks;     // per layer B × H (empty = none)
+  std::vector<Mat> output_masks;        // per layer B × H (empty = none)
+  Mat d_head;                           // B × outputs
+  std::vector<Slice> slices;
+  std::vector<Scalar> top_states;       // steps × B × H, assembled on demand when there are several slices
+  bool top_states_ready = false;
   std::size_t steps = 0, batch = 0;
-  bool dropout_active = false;
 };
 
 // --- Construction and layout ----------------------------------------------------------------------------------------
@@ -212,6 +270,7 @@ Network<Scalar>::Network(const NetworkOptions& options) : options_(options), wor
 template <typename Scalar>
 Network<Scalar>::Network(const Network& other) : Network(other.options_) {
   parameters_ = other.parameters_;
+  threads_ = other.threads_;
 }
 
 template <typename Scalar>
@@ -342,49 +401,76 @@ void Network<Scalar>::clear_initial_state() {
   initial_state_.clear();
 }
 
+
 template <typename Scalar>
 std::size_t Network<Scalar>::workspace_bytes() const {
   const auto& w = *work_;
   std::size_t count = 0;
   const auto add = [&](const typename Workspace::Mat& m) { count += static_cast<std::size_t>(m.size()); };
-  for (const auto& layer : w.layers) {
-    add(layer.pre);
-    add(layer.hidden);
-    add(layer.cell);
-    add(layer.recurrent_n);
-    add(layer.hidden_dropped);
-    add(layer.input);
-    add(layer.recurrent_mask);
-    add(layer.output_mask);
+  for (const auto& slice : w.slices) {
+    for (const auto& layer : slice.layers) {
+      for (const auto* m : {&layer.pre, &layer.hidden, &layer.cell, &layer.recurrent_n, &layer.hidden_dropped,
+                            &layer.input}) {
+        add(*m);
+      }
+    }
+    for (const auto* m : {&slice.inputs, &slice.bias, &slice.static_projection, &slice.scratch, &slice.d_output,
+                          &slice.d_input, &slice.dh, &slice.carry_h, &slice.carry_c, &slice.rec, &slice.head_input,
+                          &slice.static_gate_sums}) {
+      add(*m);
+    }
+    count += slice.gradients.size() + slice.norms_sq.size();
   }
-  for (const auto* m :
-       {&w.input_mask, &w.static_projection, &w.recurrent, &w.d_pre, &w.d_recurrent, &w.d_output, &w.d_input, &w.dh,
-        &w.dc, &w.carry_h, &w.carry_c, &w.head_input, &w.d_head, &w.static_gate_sums}) {
-    add(*m);
-  }
+  for (const auto& m : w.recurrent_masks) add(m);
+  for (const auto& m : w.output_masks) add(m);
+  add(w.input_mask);
+  add(w.d_head);
+  count += w.top_states.size();
   return count * sizeof(Scalar);
 }
 
 template <typename Scalar>
 std::span<const Scalar> Network<Scalar>::top_states() const {
-  const auto& layer = work_->layers.back();
-  const std::size_t b = work_->batch, h = options_.hidden_size;
-  return {layer.hidden.data() + b * h, work_->steps * b * h};
+  auto& w = *work_;
+  const std::size_t h = options_.hidden_size;
+  if (w.slices.empty()) return {};
+  if (w.slices.size() == 1) {
+    const auto& layer = w.slices.front().layers.back();
+    return {layer.hidden.data() + w.batch * h, w.steps * w.batch * h};
+  }
+  if (!w.top_states_ready) {
+    w.top_states.resize(w.steps * w.batch * h);
+    for (const auto& slice : w.slices) {
+      const auto& hidden = slice.layers.back().hidden;
+      for (std::size_t t = 0; t < w.steps; ++t) {
+        std::copy_n(hidden.data() + (t + 1) * slice.size * h, slice.size * h,
+                    w.top_states.data() + (t * w.batch + slice.first) * h);
+      }
+    }
+    w.top_states_ready = true;
+  }
+  return w.top_states;
+}
+
+template <typename Scalar>
+std::size_t Network<Scalar>::batch_slices(std::size_t batch) {
+  // Slices of at least 64 sequences keep the per-step products large enough to run near the GEMM rate.
+  return batch >= 128 ? 2 : 1;
+}
+
+template <typename Scalar>
+void Network<Scalar>::set_threads(std::size_t threads) {
+  if (threads == 0) throw ConfigError("network threads = 0: expected >= 1");
+  threads_ = threads;
 }
 
 // --- Forward --------------------------------------------------------------------------------------------------------
 
 template <typename Scalar>
 void Network<Scalar>::forward(const SequenceBatch<Scalar>& batch, DropoutMode mode, std::mt19937_64* rng) {
-  using Mat = typename Workspace::Mat;
-  using CMap = Eigen::Map<const Mat>;
-  using MapM = Eigen::Map<Mat>;
-  using CRow = Eigen::Map<const Eigen::Matrix<Scalar, 1, Eigen::Dynamic>>;
   auto& w = *work_;
   const std::size_t steps = batch.steps, nb = batch.batch, d = options_.input_size, s = options_.static_size;
-  const std::size_t h = options_.hidden_size, g = options_.gates(), gh = g * h, layers = options_.layers;
-  const auto eb = static_cast<Eigen::Index>(nb), eh = static_cast<Eigen::Index>(h);
-  const auto egh = static_cast<Eigen::Index>(gh);
+  const std::size_t h = options_.hidden_size, layers = options_.layers;
 
   // Sizes.
   if (steps == 0 || nb == 0) throw DataError("sequence batch is empty: steps and batch must both be >= 1");
@@ -409,185 +495,250 @@ void Network<Scalar>::forward(const SequenceBatch<Scalar>& batch, DropoutMode mo
     throw ConfigError("dropout mode sample needs a random generator (rng is null)");
   }
 
-  // (Re)size workspaces only when the shape changes, so repeated calls on one shape allocate nothing.
-  w.layers.resize(layers);
-  const auto ensure = [](Mat& m, std::size_t rows, std::size_t cols) {
-    if (static_cast<std::size_t>(m.rows()) != rows || static_cast<std::size_t>(m.cols()) != cols) {
-      m.resize(static_cast<Eigen::Index>(rows), static_cast<Eigen::Index>(cols));
-    }
-  };
-  for (auto& layer : w.layers) {
-    ensure(layer.pre, steps * nb, gh);
-    ensure(layer.hidden, (steps + 1) * nb, h);
-    if (options_.cell == CellType::lstm) ensure(layer.cell, (steps + 1) * nb, h);
-    if (options_.cell == CellType::gru) ensure(layer.recurrent_n, steps * nb, h);
-  }
-  ensure(w.recurrent, nb, gh);
-  w.steps = steps;
-  w.batch = nb;
-
   // Variational dropout masks (Gal & Ghahramani 2016): one Bernoulli mask per sequence and unit, reused at
-  // every step; inverted scaling by 1/(1−p) so that no rescaling is needed without dropout.
+  // every step; inverted scaling by 1/(1−p) so that no rescaling is needed without dropout. Drawn for the whole
+  // batch in a fixed order (input, then per layer recurrent and output), before slicing.
   const bool sample = mode == DropoutMode::sample;
-  const auto draw = [&](Mat& mask, std::size_t cols, double p) {
+  const auto draw = [&](typename Workspace::Mat& mask, std::size_t cols, double p) {
     if (!sample || p <= 0.0) {
       mask.resize(0, 0);
       return;
     }
-    ensure(mask, nb, cols);
+    ensure_size(mask, nb, cols);
     const auto keep_scale = static_cast<Scalar>(1.0 / (1.0 - p));
     for (Eigen::Index i = 0; i < mask.size(); ++i) mask.data()[i] = uniform01(*rng) < p ? Scalar(0) : keep_scale;
   };
+  w.recurrent_masks.resize(layers);
+  w.output_masks.resize(layers);
   draw(w.input_mask, d, options_.input_dropout);
-  for (auto& layer : w.layers) {
-    draw(layer.recurrent_mask, h, options_.recurrent_dropout);
-    draw(layer.output_mask, h, options_.output_dropout);
+  for (std::size_t l = 0; l < layers; ++l) {
+    draw(w.recurrent_masks[l], h, options_.recurrent_dropout);
+    draw(w.output_masks[l], h, options_.output_dropout);
   }
 
-  const std::uint8_t* mask = batch.mask.empty() ? nullptr : batch.mask.data();
-  const std::size_t states_per_layer = options_.cell == CellType::lstm ? 2 : 1;
+  // Slices (their count depends on the batch size only); workspaces are resized only when the shape changes.
+  const std::size_t count = batch_slices(nb);
+  w.slices.resize(count);
+  for (std::size_t k = 0, first = 0; k < count; ++k) {
+    auto& slice = w.slices[k];
+    slice.first = first;
+    slice.size = nb / count + (k < nb % count ? 1 : 0);
+    first += slice.size;
+  }
+  w.steps = steps;
+  w.batch = nb;
+  w.top_states_ready = false;
   final_state_.resize(state_size(nb));
+  outputs_.resize(nb * options_.horizon * options_.outputs_per_lead());
+  for_each_slice(w.slices, threads_, [&](Slice& slice) { forward_slice(slice, batch); });
+}
+
+template <typename Scalar>
+void Network<Scalar>::forward_slice(Slice& sl, const SequenceBatch<Scalar>& batch) {
+  using Mat = typename Slice::Mat;
+  using CMap = Eigen::Map<const Mat>;
+  using MapM = Eigen::Map<Mat>;
+  using CRow = Eigen::Map<const Eigen::Matrix<Scalar, 1, Eigen::Dynamic>>;
+  using Vec = Eigen::Map<Eigen::Array<Scalar, Eigen::Dynamic, 1>>;
+  using CVec = Eigen::Map<const Eigen::Array<Scalar, Eigen::Dynamic, 1>>;
+  auto& w = *work_;
+  const std::size_t steps = batch.steps, full = batch.batch, nb = sl.size, first = sl.first;
+  const std::size_t d = options_.input_size, s = options_.static_size;
+  const std::size_t h = options_.hidden_size, g = options_.gates(), gh = g * h, layers = options_.layers;
+  const auto eb = static_cast<Eigen::Index>(nb), eh = static_cast<Eigen::Index>(h);
+  const auto egh = static_cast<Eigen::Index>(gh), etb = static_cast<Eigen::Index>(steps * nb);
+  const auto efirst = static_cast<Eigen::Index>(first);
+
+  // The slice's inputs and step mask, time-major steps × n (gathered when the batch has several slices).
+  sl.input_data = batch.inputs.data();
+  sl.mask_data = batch.mask.empty() ? nullptr : batch.mask.data();
+  if (nb != full) {
+    ensure_size(sl.inputs, steps * nb, d);
+    for (std::size_t t = 0; t < steps; ++t) {
+      std::copy_n(batch.inputs.data() + (t * full + first) * d, nb * d, sl.inputs.data() + t * nb * d);
+    }
+    sl.input_data = sl.inputs.data();
+    if (sl.mask_data != nullptr) {
+      sl.mask.resize(steps * nb);
+      for (std::size_t t = 0; t < steps; ++t) {
+        std::copy_n(batch.mask.data() + t * full + first, nb, sl.mask.data() + t * nb);
+      }
+      sl.mask_data = sl.mask.data();
+    }
+  }
+  const std::uint8_t* mask = sl.mask_data;
+
+  sl.layers.resize(layers);
+  for (auto& layer : sl.layers) {
+    ensure_size(layer.pre, steps * nb, gh);
+    ensure_size(layer.hidden, (steps + 1) * nb, h);
+    if (options_.cell == CellType::lstm) ensure_size(layer.cell, (steps + 1) * nb, h);
+    if (options_.cell == CellType::gru) ensure_size(layer.recurrent_n, steps * nb, h);
+  }
+  if (options_.cell == CellType::gru) ensure_size(sl.scratch, nb, gh);
+  ensure_size(sl.bias, 1, gh);
+  const std::size_t states_per_layer = options_.cell == CellType::lstm ? 2 : 1;
 
   for (std::size_t l = 0; l < layers; ++l) {
-    auto& layer = w.layers[l];
+    auto& layer = sl.layers[l];
     const auto& o = w.offsets[l];
     const std::size_t in = l == 0 ? d : h;
     const auto ein = static_cast<Eigen::Index>(in);
 
     // Layer input (after the dropout mask that applies to it).
-    const Mat* in_mask = l == 0 ? &w.input_mask : &w.layers[l - 1].output_mask;
-    const Scalar* source = l == 0 ? batch.inputs.data() : w.layers[l - 1].hidden.data() + nb * h;
-    if (in_mask->size() > 0) {
-      ensure(layer.input, steps * nb, in);
-      CMap src(source, static_cast<Eigen::Index>(steps * nb), ein);
+    const Mat& in_mask = l == 0 ? w.input_mask : w.output_masks[l - 1];
+    const Scalar* source = l == 0 ? sl.input_data : sl.layers[l - 1].hidden.data() + nb * h;
+    if (in_mask.size() > 0) {
+      ensure_size(layer.input, steps * nb, in);
+      CMap src(source, etb, ein);
+      const auto rows_mask = in_mask.middleRows(efirst, eb).array();
       for (std::size_t t = 0; t < steps; ++t) {
         const auto rows = static_cast<Eigen::Index>(t * nb);
-        layer.input.middleRows(rows, eb).array() = src.middleRows(rows, eb).array() * in_mask->array();
+        layer.input.middleRows(rows, eb).array() = src.middleRows(rows, eb).array() * rows_mask;
       }
       layer.input_data = layer.input.data();
     } else {
       layer.input_data = source;
     }
 
-    // Input projections for all steps in one product: (T·B × D) · (D × G·H), plus the input bias.
-    CMap x(layer.input_data, static_cast<Eigen::Index>(steps * nb), ein);
+    // Input projections for all steps in one product: (T·n × D) · (D × G·H), plus both biases (the GRU's b_hn
+    // excepted: it sits inside the reset gate) and, for layer 0, the static projection.
+    CMap x(layer.input_data, etb, ein);
     CMap w_ih(parameters_.data() + o.input_weights, egh, ein);
     CMap w_hh(parameters_.data() + o.recurrent_weights, egh, eh);
-    CRow b_ih(parameters_.data() + o.input_bias, egh);
-    CRow b_hh(parameters_.data() + o.recurrent_bias, egh);
+    const Scalar* b_hn = parameters_.data() + o.recurrent_bias + 2 * h;
+    sl.bias = CRow(parameters_.data() + o.input_bias, egh) + CRow(parameters_.data() + o.recurrent_bias, egh);
+    if (options_.cell == CellType::gru) sl.bias.rightCols(eh) = CRow(parameters_.data() + o.input_bias + 2 * h, eh);
     layer.pre.noalias() = x * w_ih.transpose();
-    layer.pre.rowwise() += b_ih;
     if (l == 0 && s > 0) {
       // Static inputs: projected once per sequence, added at every step (same as concatenating them to x_t).
-      CMap statics(batch.statics.data(), eb, static_cast<Eigen::Index>(s));
+      CMap statics(batch.statics.data() + first * s, eb, static_cast<Eigen::Index>(s));
       CMap w_s(parameters_.data() + w.static_weights, egh, static_cast<Eigen::Index>(s));
-      ensure(w.static_projection, nb, gh);
-      w.static_projection.noalias() = statics * w_s.transpose();
+      ensure_size(sl.static_projection, nb, gh);
+      sl.static_projection.noalias() = statics * w_s.transpose();
+      sl.static_projection.rowwise() += sl.bias.row(0);
       for (std::size_t t = 0; t < steps; ++t)
-        layer.pre.middleRows(static_cast<Eigen::Index>(t * nb), eb) += w.static_projection;
+        layer.pre.middleRows(static_cast<Eigen::Index>(t * nb), eb) += sl.static_projection;
+    } else {
+      for (Eigen::Index r = 0; r < etb; ++r) layer.pre.row(r) += sl.bias.row(0);
     }
 
     // Initial state.
-    const std::size_t state_base = l * states_per_layer * nb * h;
+    const std::size_t state_base = l * states_per_layer * full * h;
     if (initial_state_.empty()) {
       layer.hidden.topRows(eb).setZero();
       if (options_.cell == CellType::lstm) layer.cell.topRows(eb).setZero();
     } else {
-      layer.hidden.topRows(eb) = CMap(initial_state_.data() + state_base, eb, eh);
+      layer.hidden.topRows(eb) = CMap(initial_state_.data() + state_base + first * h, eb, eh);
       if (options_.cell == CellType::lstm)
-        layer.cell.topRows(eb) = CMap(initial_state_.data() + state_base + nb * h, eb, eh);
+        layer.cell.topRows(eb) = CMap(initial_state_.data() + state_base + (full + first) * h, eb, eh);
     }
-    const bool recurrent_drop = layer.recurrent_mask.size() > 0;
-    if (recurrent_drop) ensure(layer.hidden_dropped, steps * nb, h);
+    const Mat& recurrent_mask = w.recurrent_masks[l];
+    const bool recurrent_drop = recurrent_mask.size() > 0;
+    if (recurrent_drop) ensure_size(layer.hidden_dropped, steps * nb, h);
 
     for (std::size_t t = 0; t < steps; ++t) {
       const auto row = static_cast<Eigen::Index>(t * nb);
       auto h_prev = layer.hidden.middleRows(row, eb);
-      auto h_next = layer.hidden.middleRows(row + eb, eb);
       auto gates = layer.pre.middleRows(row, eb);
-      // Recurrent product on the (possibly dropped) previous state: B × H times H × G·H.
-      if (recurrent_drop) {
-        auto dropped = layer.hidden_dropped.middleRows(row, eb);
-        dropped.array() = h_prev.array() * layer.recurrent_mask.array();
-        w.recurrent.noalias() = dropped * w_hh.transpose();
-      } else {
-        w.recurrent.noalias() = h_prev * w_hh.transpose();
-      }
-      w.recurrent.rowwise() += b_hh;
-
-      switch (options_.cell) {
-        case CellType::elman: {
-          // h_t = act(W x_t + b_ih + U h̃_{t−1} + b_hh)   (methods-networks.md, eq. E1; torch.nn.RNN)
-          gates += w.recurrent;
-          if (options_.elman_activation == ElmanActivation::tanh) {
-            gates.array() = gates.array().tanh();
-          } else if (options_.elman_activation == ElmanActivation::relu) {
-            gates.array() = gates.array().max(Scalar(0));
+      // Recurrent product on the (possibly dropped) previous state, B × H times H × G·H, accumulated straight into
+      // the pre-activations (Elman, LSTM) or into scratch (GRU: its n part is needed apart).
+      const auto recurrent_product = [&](auto& target, bool accumulate) {
+        if (recurrent_drop) {
+          auto dropped = layer.hidden_dropped.middleRows(row, eb);
+          dropped.array() = h_prev.array() * recurrent_mask.middleRows(efirst, eb).array();
+          if (accumulate) {
+            target.noalias() += dropped * w_hh.transpose();
+          } else {
+            target.noalias() = dropped * w_hh.transpose();
           }
-          h_next = gates;
-          break;
+        } else if (accumulate) {
+          target.noalias() += h_prev * w_hh.transpose();
+        } else {
+          target.noalias() = h_prev * w_hh.transpose();
         }
-        case CellType::lstm: {
-          // Hochreiter & Schmidhuber 1997 with forget gate (Gers et al. 2000); gate order i, f, g, o as torch.nn.LSTM
-          // (methods-networks.md, eqs. L1–L6).
-          gates += w.recurrent;
-          gates.leftCols(2 * eh).array() = gates.leftCols(2 * eh).array().logistic();
-          gates.middleCols(2 * eh, eh).array() = gates.middleCols(2 * eh, eh).array().tanh();
-          gates.rightCols(eh).array() = gates.rightCols(eh).array().logistic();
-          auto c_prev = layer.cell.middleRows(row, eb);
-          auto c_next = layer.cell.middleRows(row + eb, eb);
-          c_next.array() = gates.middleCols(eh, eh).array() * c_prev.array() +
-                           gates.leftCols(eh).array() * gates.middleCols(2 * eh, eh).array();
-          h_next.array() = gates.rightCols(eh).array() * c_next.array().tanh();
-          break;
-        }
-        case CellType::gru: {
-          // Cho et al. 2014 with the reset gate applied after the recurrent product (torch.nn.GRU):
-          // r, z = σ(·), n = tanh(W_n x + b_in + r ⊙ (U_n h̃ + b_hn)), h = (1 − z) ⊙ n + z ⊙ h_prev
-          // (methods-networks.md, eqs. G1–G4).
-          gates.leftCols(2 * eh).array() =
-              (gates.leftCols(2 * eh).array() + w.recurrent.leftCols(2 * eh).array()).logistic();
-          auto rec_n = layer.recurrent_n.middleRows(row, eb);
-          rec_n = w.recurrent.rightCols(eh);
-          gates.rightCols(eh).array() =
-              (gates.rightCols(eh).array() + gates.leftCols(eh).array() * rec_n.array()).tanh();
-          h_next.array() = (Scalar(1) - gates.middleCols(eh, eh).array()) * gates.rightCols(eh).array() +
-                           gates.middleCols(eh, eh).array() * h_prev.array();
-          break;
-        }
+      };
+      if (options_.cell == CellType::gru) {
+        recurrent_product(sl.scratch, false);
+      } else {
+        recurrent_product(gates, true);
       }
-      // Padded steps keep the previous state (left padding: the state stays at its initial value).
-      if (mask != nullptr) {
-        for (std::size_t b = 0; b < nb; ++b) {
-          if (mask[t * nb + b] != 0) continue;
-          const auto eb_i = static_cast<Eigen::Index>(b);
-          h_next.row(eb_i) = h_prev.row(eb_i);
+
+      // Gate nonlinearities fused per sequence: one pass over a row that sits in L1.
+      for (std::size_t b = 0; b < nb; ++b) {
+        const std::size_t r = t * nb + b;
+        const Scalar* hp = layer.hidden.data() + r * h;
+        Scalar* hn = layer.hidden.data() + (r + nb) * h;
+        Scalar* a = layer.pre.data() + r * gh;
+        if (mask != nullptr && mask[t * nb + b] == 0) {
+          // Padded steps keep the previous state (left padding: the state stays at its initial value).
+          std::copy_n(hp, h, hn);
           if (options_.cell == CellType::lstm) {
-            layer.cell.row(row + eb + eb_i) = layer.cell.row(row + eb_i);
+            std::copy_n(layer.cell.data() + r * h, h, layer.cell.data() + (r + nb) * h);
+          }
+          if (options_.cell == CellType::gru) std::fill_n(layer.recurrent_n.data() + r * h, h, Scalar(0));
+          continue;
+        }
+        switch (options_.cell) {
+          case CellType::elman: {
+            // h_t = act(W x_t + b_ih + U h̃_{t−1} + b_hh)   (methods-networks.md, eq. E1; torch.nn.RNN)
+            Vec act(a, eh);
+            if (options_.elman_activation == ElmanActivation::tanh) {
+              act = act.tanh();
+            } else if (options_.elman_activation == ElmanActivation::relu) {
+              act = act.max(Scalar(0));
+            }
+            Vec(hn, eh) = act;
+            break;
+          }
+          case CellType::lstm: {
+            // Hochreiter & Schmidhuber 1997 with forget gate (Gers et al. 2000); gate order i, f, g, o as
+            // torch.nn.LSTM (methods-networks.md, eqs. L1–L6).
+            Vec if_gates(a, 2 * eh), g_gate(a + 2 * h, eh), o_gate(a + 3 * h, eh);
+            if_gates = if_gates.logistic();
+            g_gate = g_gate.tanh();
+            o_gate = o_gate.logistic();
+            Vec c_next(layer.cell.data() + (r + nb) * h, eh);
+            c_next = Vec(a + h, eh) * CVec(layer.cell.data() + r * h, eh) + Vec(a, eh) * g_gate;
+            Vec(hn, eh) = o_gate * c_next.tanh();
+            break;
+          }
+          case CellType::gru: {
+            // Cho et al. 2014 with the reset gate applied after the recurrent product (torch.nn.GRU):
+            // r, z = σ(·), n = tanh(W_n x + b_in + r ⊙ (U_n h̃ + b_hn)), h = (1 − z) ⊙ n + z ⊙ h_prev
+            // (methods-networks.md, eqs. G1–G4).
+            const Scalar* u = sl.scratch.data() + b * gh;
+            Vec rz(a, 2 * eh), n_gate(a + 2 * h, eh), rec_n(layer.recurrent_n.data() + r * h, eh);
+            rz = (rz + CVec(u, 2 * eh)).logistic();
+            rec_n = CVec(u + 2 * h, eh) + CVec(b_hn, eh);
+            n_gate = (n_gate + Vec(a, eh) * rec_n).tanh();
+            const Vec z_gate(a + h, eh);
+            Vec(hn, eh) = (Scalar(1) - z_gate) * n_gate + z_gate * CVec(hp, eh);
+            break;
           }
         }
       }
     }
-    MapM(final_state_.data() + state_base, eb, eh) = layer.hidden.bottomRows(eb);
+    MapM(final_state_.data() + state_base + first * h, eb, eh) = layer.hidden.bottomRows(eb);
     if (options_.cell == CellType::lstm) {
-      MapM(final_state_.data() + state_base + nb * h, eb, eh) = layer.cell.bottomRows(eb);
+      MapM(final_state_.data() + state_base + (full + first) * h, eb, eh) = layer.cell.bottomRows(eb);
     }
   }
 
   // Head on the last state of the top layer (after its output dropout).
-  const auto& top = w.layers.back();
+  const auto& top = sl.layers.back();
   const std::size_t outputs = options_.horizon * options_.outputs_per_lead();
   const auto eo = static_cast<Eigen::Index>(outputs);
-  ensure(w.head_input, nb, h);
-  if (top.output_mask.size() > 0) {
-    w.head_input.array() = top.hidden.bottomRows(eb).array() * top.output_mask.array();
+  ensure_size(sl.head_input, nb, h);
+  const Mat& out_mask = w.output_masks.back();
+  if (out_mask.size() > 0) {
+    sl.head_input.array() = top.hidden.bottomRows(eb).array() * out_mask.middleRows(efirst, eb).array();
   } else {
-    w.head_input = top.hidden.bottomRows(eb);
+    sl.head_input = top.hidden.bottomRows(eb);
   }
-  outputs_.resize(nb * outputs);
-  MapM y(outputs_.data(), eb, eo);
+  MapM y(outputs_.data() + first * outputs, eb, eo);
   CMap w_head(parameters_.data() + w.head_weights, eo, eh);
-  y.noalias() = w.head_input * w_head.transpose();
+  y.noalias() = sl.head_input * w_head.transpose();
   y.rowwise() += CRow(parameters_.data() + w.head_bias, eo);
 }
 
@@ -609,11 +760,6 @@ void Network<Scalar>::predict(const SequenceBatch<Scalar>& batch, std::span<Scal
 template <typename Scalar>
 Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, const Loss& loss, DropoutMode mode,
                                           std::mt19937_64* rng) {
-  using Mat = typename Workspace::Mat;
-  using CMap = Eigen::Map<const Mat>;
-  using MapM = Eigen::Map<Mat>;
-  using MapRow = Eigen::Map<Eigen::Matrix<Scalar, 1, Eigen::Dynamic>>;
-
   // Loss must match the head.
   loss.validate();
   {
@@ -637,186 +783,247 @@ Scalar Network<Scalar>::loss_and_gradient(const SequenceBatch<Scalar>& batch, co
   const FlushSubnormals flush;
   forward(batch, mode, rng);
   auto& w = *work_;
-  const std::size_t steps = batch.steps, nb = batch.batch, d = options_.input_size, s = options_.static_size;
+  const std::size_t nb = batch.batch, layers = options_.layers;
+  const std::size_t outputs = options_.horizon * options_.outputs_per_lead();
+  ensure_size(w.d_head, nb, outputs);
+  const Scalar value =
+      loss_and_output_gradient<Scalar>(loss, outputs_, batch.targets, std::span<Scalar>(w.d_head.data(), nb * outputs));
+  input_gradients_.resize(batch.steps * nb * options_.input_size);
+  for_each_slice(w.slices, threads_, [&](Slice& slice) { backward_slice(slice, batch); });
+
+  // Sum over slices in slice order (fixed by the batch size), so the result does not depend on the thread count.
+  state_gradient_norms_.assign(batch.steps * layers, Scalar(0));
+  for (std::size_t k = 0; k < w.slices.size(); ++k) {
+    const auto& slice = w.slices[k];
+    if (k > 0) {
+      for (std::size_t i = 0; i < gradients_.size(); ++i) gradients_[i] += slice.gradients[i];
+    }
+    for (std::size_t i = 0; i < state_gradient_norms_.size(); ++i) state_gradient_norms_[i] += slice.norms_sq[i];
+  }
+  for (auto& v : state_gradient_norms_) v = std::sqrt(v);
+  return value;
+}
+
+template <typename Scalar>
+void Network<Scalar>::backward_slice(Slice& sl, const SequenceBatch<Scalar>& batch) {
+  using Mat = typename Slice::Mat;
+  using CMap = Eigen::Map<const Mat>;
+  using MapM = Eigen::Map<Mat>;
+  using MapRow = Eigen::Map<Eigen::Matrix<Scalar, 1, Eigen::Dynamic>>;
+  using Vec = Eigen::Map<Eigen::Array<Scalar, Eigen::Dynamic, 1>>;
+  using CVec = Eigen::Map<const Eigen::Array<Scalar, Eigen::Dynamic, 1>>;
+  auto& w = *work_;
+  const std::size_t steps = batch.steps, full = batch.batch, nb = sl.size, first = sl.first;
+  const std::size_t d = options_.input_size, s = options_.static_size;
   const std::size_t h = options_.hidden_size, g = options_.gates(), gh = g * h, layers = options_.layers;
   const auto eb = static_cast<Eigen::Index>(nb), eh = static_cast<Eigen::Index>(h);
   const auto egh = static_cast<Eigen::Index>(gh), etb = static_cast<Eigen::Index>(steps * nb);
+  const auto efirst = static_cast<Eigen::Index>(first);
   const std::size_t outputs = options_.horizon * options_.outputs_per_lead();
   const auto eo = static_cast<Eigen::Index>(outputs);
-  const auto ensure = [](Mat& m, std::size_t rows, std::size_t cols) {
-    if (static_cast<std::size_t>(m.rows()) != rows || static_cast<std::size_t>(m.cols()) != cols) {
-      m.resize(static_cast<Eigen::Index>(rows), static_cast<Eigen::Index>(cols));
-    }
+  const std::uint8_t* mask = sl.mask_data;
+
+  // The first slice writes gradients_ directly; later ones their own buffer, added in slice order by the caller.
+  Scalar* grad = gradients_.data();
+  if (&sl != &w.slices.front()) {
+    sl.gradients.resize(gradients_.size());
+    grad = sl.gradients.data();
+  }
+  std::fill_n(grad, gradients_.size(), Scalar(0));
+  sl.norms_sq.assign(steps * layers, Scalar(0));
+
+  // Head: y = x̃ W^T + b, x̃ = h_T ⊙ output mask. d loss / d h_T starts the sweep of the top layer as carry_h.
+  const auto d_head = w.d_head.middleRows(efirst, eb);
+  CMap w_head(parameters_.data() + w.head_weights, eo, eh);
+  MapM(grad + w.head_weights, eo, eh).noalias() = d_head.transpose() * sl.head_input;
+  MapRow head_bias(grad + w.head_bias, eo);
+  for (Eigen::Index r = 0; r < eb; ++r) head_bias += d_head.row(r);
+  ensure_size(sl.dh, nb, h);
+  ensure_size(sl.carry_h, nb, h);
+  ensure_size(sl.carry_c, nb, h);
+  ensure_size(sl.rec, nb, h);
+  if (options_.cell == CellType::gru) ensure_size(sl.scratch, nb, gh);
+  // Bias gradients as row sums: a plain loop over contiguous rows vectorises, where Eigen's colwise() reduction
+  // of a row-major matrix does not (it took ~15% of a training step).
+  const auto column_sums = [](const auto& m, Scalar* out) {
+    MapRow sums(out, m.cols());
+    sums.setZero();
+    for (Eigen::Index r = 0; r < m.rows(); ++r) sums += m.row(r);
   };
 
-  ensure(w.d_head, nb, outputs);
-  const Scalar value =
-      loss_and_output_gradient<Scalar>(loss, outputs_, batch.targets, std::span<Scalar>(w.d_head.data(), nb * outputs));
-  std::fill(gradients_.begin(), gradients_.end(), Scalar(0));
-
-  // Head: y = x̃ W^T + b, x̃ = h_T ⊙ output mask.
-  CMap w_head(parameters_.data() + w.head_weights, eo, eh);
-  MapM(gradients_.data() + w.head_weights, eo, eh).noalias() = w.d_head.transpose() * w.head_input;
-  MapRow(gradients_.data() + w.head_bias, eo) = w.d_head.colwise().sum();
-  ensure(w.d_output, steps * nb, h);
-  w.d_output.setZero();
-  auto d_last = w.d_output.bottomRows(eb);
-  d_last.noalias() = w.d_head * w_head;
-  if (w.layers.back().output_mask.size() > 0) d_last.array() *= w.layers.back().output_mask.array();
-
-  ensure(w.d_pre, steps * nb, gh);
-  if (options_.cell == CellType::gru) ensure(w.d_recurrent, steps * nb, gh);
-  ensure(w.dh, nb, h);
-  ensure(w.dc, nb, h);
-  ensure(w.carry_h, nb, h);
-  ensure(w.carry_c, nb, h);
-  state_gradient_norms_.assign(steps * layers, Scalar(0));
-  const std::uint8_t* mask = batch.mask.empty() ? nullptr : batch.mask.data();
-
   for (std::size_t li = layers; li-- > 0;) {
-    auto& layer = w.layers[li];
+    auto& layer = sl.layers[li];
     const auto& o = w.offsets[li];
     const std::size_t in = li == 0 ? d : h;
     const auto ein = static_cast<Eigen::Index>(in);
     CMap w_ih(parameters_.data() + o.input_weights, egh, ein);
     CMap w_hh(parameters_.data() + o.recurrent_weights, egh, eh);
-    const bool recurrent_drop = layer.recurrent_mask.size() > 0;
-    // For Elman and LSTM the input-side and recurrent-side pre-activation gradients are equal; only the GRU's
-    // reset gate (applied after U_n h) separates them.
-    Mat& d_rec = options_.cell == CellType::gru ? w.d_recurrent : w.d_pre;
-    w.carry_h.setZero();
-    w.carry_c.setZero();
+    const Mat& recurrent_mask = w.recurrent_masks[li];
+    const bool recurrent_drop = recurrent_mask.size() > 0;
+    const bool top = li + 1 == layers;
+    if (top) {
+      sl.carry_h.noalias() = d_head * w_head;
+      if (w.output_masks.back().size() > 0) sl.carry_h.array() *= w.output_masks.back().middleRows(efirst, eb).array();
+    } else {
+      sl.carry_h.setZero();
+    }
+    sl.carry_c.setZero();
+    Scalar* norms = sl.norms_sq.data();
 
     for (std::size_t t = steps; t-- > 0;) {
       const auto row = static_cast<Eigen::Index>(t * nb);
-      auto gates = layer.pre.middleRows(row, eb);
-      auto h_prev = layer.hidden.middleRows(row, eb);
-      auto da = w.d_pre.middleRows(row, eb);
-      w.dh = w.d_output.middleRows(row, eb) + w.carry_h;
-      state_gradient_norms_[t * layers + li] = w.dh.norm();
-      // carry_h collects d loss / d h_{t−1} terms that do not pass through U (GRU's z ⊙ h_prev path).
-      switch (options_.cell) {
-        case CellType::elman: {
-          if (options_.elman_activation == ElmanActivation::tanh) {
-            da.array() = w.dh.array() * (Scalar(1) - gates.array().square());
-          } else if (options_.elman_activation == ElmanActivation::relu) {
-            da.array() = (gates.array() > Scalar(0)).select(w.dh.array(), Scalar(0));
-          } else {
-            da = w.dh;
-          }
-          w.carry_h.setZero();
-          break;
-        }
-        case CellType::lstm: {
-          auto c_prev = layer.cell.middleRows(row, eb);
-          auto c_next = layer.cell.middleRows(row + eb, eb);
-          const auto ig = gates.leftCols(eh).array();
-          const auto fg = gates.middleCols(eh, eh).array();
-          const auto gg = gates.middleCols(2 * eh, eh).array();
-          const auto og = gates.rightCols(eh).array();
-          // Reuse carry_h as scratch for tanh(c_t).
-          w.carry_h.array() = c_next.array().tanh();
-          w.dc.array() = w.carry_c.array() + w.dh.array() * og * (Scalar(1) - w.carry_h.array().square());
-          if (mask != nullptr) {
-            // A padded step copies c_{t−1} to c_t: its cell gradient passes through unchanged.
-            for (std::size_t b = 0; b < nb; ++b) {
-              if (mask[t * nb + b] == 0)
-                w.dc.row(static_cast<Eigen::Index>(b)) = w.carry_c.row(static_cast<Eigen::Index>(b));
-            }
-          }
-          da.rightCols(eh).array() = w.dh.array() * w.carry_h.array() * og * (Scalar(1) - og);
-          da.leftCols(eh).array() = w.dc.array() * gg * ig * (Scalar(1) - ig);
-          da.middleCols(eh, eh).array() = w.dc.array() * c_prev.array() * fg * (Scalar(1) - fg);
-          da.middleCols(2 * eh, eh).array() = w.dc.array() * ig * (Scalar(1) - gg.square());
-          w.carry_c.array() = w.dc.array() * fg;
-          w.carry_h.setZero();
-          break;
-        }
-        case CellType::gru: {
-          auto dr = w.d_recurrent.middleRows(row, eb);
-          auto rec_n = layer.recurrent_n.middleRows(row, eb);
-          const auto rg = gates.leftCols(eh).array();
-          const auto zg = gates.middleCols(eh, eh).array();
-          const auto ng = gates.rightCols(eh).array();
-          // dn = dh ⊙ (1 − z), dz = dh ⊙ (h_prev − n); d(pre n) = dn ⊙ (1 − n²); d(U_n h) = d(pre n) ⊙ r.
-          da.rightCols(eh).array() = w.dh.array() * (Scalar(1) - zg) * (Scalar(1) - ng.square());
-          da.middleCols(eh, eh).array() = w.dh.array() * (h_prev.array() - ng) * zg * (Scalar(1) - zg);
-          da.leftCols(eh).array() = da.rightCols(eh).array() * rec_n.array() * rg * (Scalar(1) - rg);
-          dr.leftCols(2 * eh) = da.leftCols(2 * eh);
-          dr.rightCols(eh).array() = da.rightCols(eh).array() * rg;
-          w.carry_h.array() = w.dh.array() * zg;
-          break;
-        }
+      // dh = d loss / d h_t: from the layer above (lower layers) plus what flows back from step t+1 (carry_h).
+      if (top) {
+        sl.dh = sl.carry_h;
+      } else {
+        sl.dh = sl.d_output.middleRows(row, eb) + sl.carry_h;
       }
-      if (mask != nullptr) {
-        for (std::size_t b = 0; b < nb; ++b) {
-          if (mask[t * nb + b] != 0) continue;
-          const auto eb_i = static_cast<Eigen::Index>(b);
-          da.row(eb_i).setZero();
-          if (options_.cell == CellType::gru) w.d_recurrent.row(row + eb_i).setZero();
-          if (options_.cell == CellType::lstm) w.carry_c.row(eb_i) = w.dc.row(eb_i);
+      norms[t * layers + li] = sl.dh.squaredNorm();
+      // Gate derivatives fused per sequence; step t's activations are overwritten in place by d loss / d pre.
+      for (std::size_t b = 0; b < nb; ++b) {
+        const std::size_t r = t * nb + b;
+        Scalar* a = layer.pre.data() + r * gh;
+        const CVec dh(sl.dh.data() + b * h, eh);
+        const bool padded = mask != nullptr && mask[t * nb + b] == 0;
+        if (padded) {
+          // A padded step copies the state: its gradient passes to step t−1 unchanged (carry_c stays, carry_h is
+          // set to dh after the product below) and nothing reaches the weights.
+          std::fill_n(a, gh, Scalar(0));
+          if (options_.cell == CellType::gru) {
+            std::fill_n(sl.scratch.data() + b * gh, gh, Scalar(0));
+            std::fill_n(layer.recurrent_n.data() + r * h, h, Scalar(0));
+            std::fill_n(sl.carry_h.data() + b * h, h, Scalar(0));
+          }
+          continue;
+        }
+        switch (options_.cell) {
+          case CellType::elman: {
+            Vec da(a, eh);
+            if (options_.elman_activation == ElmanActivation::tanh) {
+              da = dh * (Scalar(1) - da.square());
+            } else if (options_.elman_activation == ElmanActivation::relu) {
+              da = (da > Scalar(0)).select(dh, Scalar(0));
+            } else {
+              da = dh;
+            }
+            break;
+          }
+          case CellType::lstm: {
+            Vec ig(a, eh), fg(a + h, eh), gg(a + 2 * h, eh), og(a + 3 * h, eh);
+            const CVec c_prev(layer.cell.data() + r * h, eh), c_next(layer.cell.data() + (r + nb) * h, eh);
+            Vec tc(sl.rec.data() + b * h, eh), carry_c(sl.carry_c.data() + b * h, eh);
+            tc = c_next.tanh();
+            // dc = d loss / d c_t (kept in carry_c until the f-gate term has been formed).
+            carry_c = carry_c + dh * og * (Scalar(1) - tc.square());
+            og = dh * tc * og * (Scalar(1) - og);
+            tc = carry_c * gg * ig * (Scalar(1) - ig);  // d(pre i), parked while i and g are still needed
+            gg = carry_c * ig * (Scalar(1) - gg.square());
+            ig = tc;
+            tc = carry_c * c_prev * fg * (Scalar(1) - fg);  // d(pre f)
+            carry_c = carry_c * fg;                           // d loss / d c_{t−1}
+            fg = tc;
+            break;
+          }
+          case CellType::gru: {
+            Vec rg(a, eh), zg(a + h, eh), ng(a + 2 * h, eh), rec_n(layer.recurrent_n.data() + r * h, eh);
+            Vec dr_rz(sl.scratch.data() + b * gh, 2 * eh), dr_n(sl.scratch.data() + b * gh + 2 * h, eh);
+            // dn = dh ⊙ (1 − z), dz = dh ⊙ (h_prev − n); d(pre n) = dn ⊙ (1 − n²); d(U_n h̃ + b_hn) = d(pre n) ⊙ r;
+            // d(pre r) = d(pre n) ⊙ (U_n h̃ + b_hn) ⊙ r(1 − r). carry_h collects the z ⊙ h_prev path, which
+            // bypasses U. The recurrent-side gradient [d(pre r), d(pre z), d(U_n h̃ + b_hn)] goes to scratch.
+            const CVec hp(layer.hidden.data() + r * h, eh);
+            Vec(sl.carry_h.data() + b * h, eh) = dh * zg;
+            dr_n = dh * (Scalar(1) - zg) * (Scalar(1) - ng.square());  // d(pre n), parked
+            zg = dh * (hp - ng) * zg * (Scalar(1) - zg);
+            ng = dr_n;
+            rec_n = dr_n * rec_n;
+            dr_n = dr_n * rg;
+            rg = rec_n * rg * (Scalar(1) - rg);
+            rec_n = dr_n;
+            dr_rz = Vec(a, 2 * eh);
+            break;
+          }
         }
       }
       // d loss / d h_{t−1} through the recurrent product (masked by the recurrent dropout mask).
-      auto d_rec_t = d_rec.middleRows(row, eb);
-      if (recurrent_drop) {
-        w.dc.noalias() = d_rec_t * w_hh;  // dc is free here: reuse as scratch
-        w.carry_h.array() += w.dc.array() * layer.recurrent_mask.array();
+      const auto d_rec_t = layer.pre.middleRows(row, eb);
+      const auto recurrent_gradient = [&](const auto& d_rec, bool accumulate) {
+        if (recurrent_drop) {
+          sl.rec.noalias() = d_rec * w_hh;
+          if (accumulate) {
+            sl.carry_h.array() += sl.rec.array() * recurrent_mask.middleRows(efirst, eb).array();
+          } else {
+            sl.carry_h.array() = sl.rec.array() * recurrent_mask.middleRows(efirst, eb).array();
+          }
+        } else if (accumulate) {
+          sl.carry_h.noalias() += d_rec * w_hh;
+        } else {
+          sl.carry_h.noalias() = d_rec * w_hh;
+        }
+      };
+      if (options_.cell == CellType::gru) {
+        recurrent_gradient(sl.scratch, true);
       } else {
-        w.carry_h.noalias() += d_rec_t * w_hh;
+        recurrent_gradient(d_rec_t, false);
       }
       if (mask != nullptr) {
         for (std::size_t b = 0; b < nb; ++b) {
           if (mask[t * nb + b] == 0)
-            w.carry_h.row(static_cast<Eigen::Index>(b)) = w.dh.row(static_cast<Eigen::Index>(b));
+            sl.carry_h.row(static_cast<Eigen::Index>(b)) = sl.dh.row(static_cast<Eigen::Index>(b));
         }
       }
     }
 
-    // Weight gradients: one product over all steps each.
+    // Weight gradients: one product over all steps each (pre now holds d loss / d pre-activations).
     CMap x(layer.input_data, etb, ein);
-    MapM(gradients_.data() + o.input_weights, egh, ein).noalias() = w.d_pre.transpose() * x;
-    // Bias gradients as row sums: a plain loop over contiguous rows vectorises, where Eigen's colwise() reduction
-    // of a row-major matrix does not (it took ~15% of a training step).
-    const auto column_sums = [&](const Mat& m, Scalar* out) {
-      MapRow sums(out, m.cols());
-      sums.setZero();
-      for (Eigen::Index r = 0; r < m.rows(); ++r) sums += m.row(r);
+    MapM(grad + o.input_weights, egh, ein).noalias() = layer.pre.transpose() * x;
+    column_sums(layer.pre, grad + o.input_bias);
+    const auto recurrent_weight_gradient = [&](const auto& h_prev_all) {
+      if (options_.cell == CellType::gru) {
+        // r and z: the input-side gradient; n: d(U_n h̃ + b_hn), kept in recurrent_n.
+        MapM(grad + o.recurrent_weights, 2 * eh, eh).noalias() = layer.pre.leftCols(2 * eh).transpose() * h_prev_all;
+        MapM(grad + o.recurrent_weights + 2 * h * h, eh, eh).noalias() = layer.recurrent_n.transpose() * h_prev_all;
+      } else {
+        MapM(grad + o.recurrent_weights, egh, eh).noalias() = layer.pre.transpose() * h_prev_all;
+      }
     };
-    column_sums(w.d_pre, gradients_.data() + o.input_bias);
     if (recurrent_drop) {
-      MapM(gradients_.data() + o.recurrent_weights, egh, eh).noalias() = d_rec.transpose() * layer.hidden_dropped;
+      recurrent_weight_gradient(layer.hidden_dropped);
     } else {
-      MapM(gradients_.data() + o.recurrent_weights, egh, eh).noalias() = d_rec.transpose() * layer.hidden.topRows(etb);
+      recurrent_weight_gradient(layer.hidden.topRows(etb));
     }
-    if (&d_rec == &w.d_pre) {
-      std::copy_n(gradients_.data() + o.input_bias, gh, gradients_.data() + o.recurrent_bias);
+    // For Elman and LSTM the input-side and recurrent-side pre-activation gradients are equal; only the GRU's
+    // reset gate (applied after U_n h̃) separates them, in its n part.
+    if (options_.cell == CellType::gru) {
+      std::copy_n(grad + o.input_bias, 2 * h, grad + o.recurrent_bias);
+      column_sums(layer.recurrent_n, grad + o.recurrent_bias + 2 * h);
     } else {
-      column_sums(d_rec, gradients_.data() + o.recurrent_bias);
+      std::copy_n(grad + o.input_bias, gh, grad + o.recurrent_bias);
     }
     if (li == 0 && s > 0) {
-      ensure(w.static_gate_sums, nb, gh);
-      w.static_gate_sums.setZero();
+      ensure_size(sl.static_gate_sums, nb, gh);
+      sl.static_gate_sums.setZero();
       for (std::size_t t = 0; t < steps; ++t)
-        w.static_gate_sums += w.d_pre.middleRows(static_cast<Eigen::Index>(t * nb), eb);
-      CMap statics(batch.statics.data(), eb, static_cast<Eigen::Index>(s));
-      MapM(gradients_.data() + w.static_weights, egh, static_cast<Eigen::Index>(s)).noalias() =
-          w.static_gate_sums.transpose() * statics;
+        sl.static_gate_sums += layer.pre.middleRows(static_cast<Eigen::Index>(t * nb), eb);
+      CMap statics(batch.statics.data() + first * s, eb, static_cast<Eigen::Index>(s));
+      MapM(grad + w.static_weights, egh, static_cast<Eigen::Index>(s)).noalias() =
+          sl.static_gate_sums.transpose() * statics;
     }
 
-    // Gradient wrt this layer's input: one product (T·B × G·H) · (G·H × D_l), then through its dropout mask.
-    ensure(w.d_input, steps * nb, in);
-    w.d_input.noalias() = w.d_pre * w_ih;
-    const Mat& in_mask = li == 0 ? w.input_mask : w.layers[li - 1].output_mask;
+    // Gradient wrt this layer's input: one product (T·n × G·H) · (G·H × D_l), then through its dropout mask.
+    ensure_size(sl.d_input, steps * nb, in);
+    sl.d_input.noalias() = layer.pre * w_ih;
+    const Mat& in_mask = li == 0 ? w.input_mask : w.output_masks[li - 1];
     if (in_mask.size() > 0) {
+      const auto rows_mask = in_mask.middleRows(efirst, eb).array();
       for (std::size_t t = 0; t < steps; ++t) {
-        w.d_input.middleRows(static_cast<Eigen::Index>(t * nb), eb).array() *= in_mask.array();
+        sl.d_input.middleRows(static_cast<Eigen::Index>(t * nb), eb).array() *= rows_mask;
       }
     }
-    if (li > 0) std::swap(w.d_output, w.d_input);
+    if (li > 0) std::swap(sl.d_output, sl.d_input);
   }
-  input_gradients_.assign(w.d_input.data(), w.d_input.data() + steps * nb * d);
-  return value;
+  for (std::size_t t = 0; t < steps; ++t) {
+    std::copy_n(sl.d_input.data() + t * nb * d, nb * d, input_gradients_.data() + (t * full + first) * d);
+  }
 }
 
 template class Network<float>;

@@ -6,7 +6,9 @@
 /// bias_ih, bias_hh per layer).
 ///
 /// Thread-safety: a Network is not safe for concurrent use (forward and backward share preallocated workspaces);
-/// distinct Network objects may be used from different threads at once. Kernels are single-threaded.
+/// distinct Network objects may be used from different threads at once. Kernels are single-threaded; a network
+/// alone on a machine may run its batch slices on several threads (set_threads), with results that do not depend
+/// on the thread count.
 
 #include <cstddef>
 #include <cstdint>
@@ -106,7 +108,7 @@ class Network {
  public:
   /// @throws libseq::ConfigError when options.validate() fails.
   explicit Network(const NetworkOptions& options);
-  Network(const Network& other);             ///< copies options and parameters (not workspaces or gradients)
+  Network(const Network& other);             ///< copies options, parameters, threads (not workspaces or gradients)
   Network& operator=(const Network& other);  ///< as the copy constructor
   Network(Network&&) noexcept;
   Network& operator=(Network&&) noexcept;
@@ -157,6 +159,19 @@ class Network {
   /// steps × batch × gates × hidden_size and is reused by later calls of the same shape.
   std::size_t workspace_bytes() const;
 
+  /// Sequences per batch slice: a batch of `batch` sequences is cut into batch_slices(batch) slices of nearly equal
+  /// size (the first batch % slices slices one sequence larger). The count depends on the batch size only: 1 below
+  /// 128 sequences, else 2. Forward and backward run per slice; parameter gradients are summed in slice order.
+  static std::size_t batch_slices(std::size_t batch);
+
+  /// Threads used to run the batch slices of one call (default 1; at most batch_slices(batch) are of use). Results
+  /// are bit-identical for any value, because the slicing and the order of the gradient sum do not depend on it.
+  /// Use more than 1 only when this network is alone on the machine: it starts its own threads (std::thread) in
+  /// every predict / loss_and_gradient call, which would oversubscribe inside an ensemble's parallel loop.
+  /// @throws libseq::ConfigError when threads == 0.
+  void set_threads(std::size_t threads);
+  std::size_t threads() const { return threads_; }
+
   /// Size of a recurrent state for `batch` sequences: layers × (h, and c for LSTM) × batch × H.
   std::size_t state_size(std::size_t batch) const;
   /// Initial state used by every later forward call until clear_initial_state() (for truncated BPTT: pass the
@@ -171,14 +186,18 @@ class Network {
 
  private:
   struct Workspace;
+  struct Slice;
   void build_layout();
   void forward(const SequenceBatch<Scalar>& batch, DropoutMode mode, std::mt19937_64* rng);
+  void forward_slice(Slice& slice, const SequenceBatch<Scalar>& batch);
+  void backward_slice(Slice& slice, const SequenceBatch<Scalar>& batch);
 
   NetworkOptions options_;
   std::vector<ParameterBlock> layout_;
   std::vector<Scalar> parameters_, gradients_, input_gradients_, outputs_, state_gradient_norms_;
   std::vector<Scalar> initial_state_, final_state_;
   std::unique_ptr<Workspace> work_;
+  std::size_t threads_ = 1;
 };
 
 extern template class Network<float>;
