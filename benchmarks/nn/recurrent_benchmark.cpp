@@ -1,11 +1,15 @@
-// Throughput of one training step (forward + loss + BPTT [+ Adam]) and of inference, float32, single thread, for
-// the configurations of docs/performance-engine.md; and the single-thread float32 GEMM rate Eigen reaches here.
+// Throughput of one training step (forward + loss + BPTT [+ Adam]) and of inference, float32, on 1 and 2 threads
+// (Network::set_threads: the batch slices of one network in parallel), for the configurations of
+// docs/performance-engine.md; an ensemble of 2 members trained side by side on 2 threads (OpenMP over members, each
+// member single-threaded, as libseq::uncertainty does); and the single-thread float32 GEMM rate Eigen reaches here.
 // FLOP counts (common practice, no source): forward = 2·B·T·G·H·(D+H) (input and recurrent products), training
-// = 3 × forward (backward ≈ twice the forward products).
+// = 3 × forward (backward ≈ twice the forward products). Every timed loop follows one untimed warm-up call, so the
+// figures are for the steady state of training (workspaces already allocated), not for the first call.
 
 #include <benchmark/benchmark.h>
 
 #include <Eigen/Dense>
+#include <array>
 #include <random>
 
 #include "libseq/nn/network.hpp"
@@ -43,18 +47,20 @@ double forward_flops(const libseq::nn::NetworkOptions& o, std::int64_t t, std::i
          static_cast<double>(o.input_size + o.hidden_size);
 }
 
-// Arguments: cell, D, H, T, B.
+// Arguments: cell, D, H, T, B, threads.
 void train_step(benchmark::State& state) {
   const auto cell = static_cast<CellType>(state.range(0));
   const auto o = options_for(cell, state.range(1), state.range(2));
   const auto t = static_cast<std::size_t>(state.range(3)), b = static_cast<std::size_t>(state.range(4));
   libseq::nn::Network<float> net(o);
   net.initialize(7);
+  net.set_threads(static_cast<std::size_t>(state.range(5)));
   const auto batch = batch_for(o, t, b);
   const libseq::nn::Loss loss{libseq::nn::LossType::squared_mean, {}};
 #ifdef LIBSEQ_BENCHMARK_WITH_ADAM
   libseq::train::Optimizer<float> adam(libseq::train::OptimizerOptions{}, net.parameter_count());
 #endif
+  benchmark::DoNotOptimize(net.loss_and_gradient(batch, loss, libseq::nn::DropoutMode::off, nullptr));  // warm-up
   for (auto _ : state) {
     benchmark::DoNotOptimize(net.loss_and_gradient(batch, loss, libseq::nn::DropoutMode::off, nullptr));
 #ifdef LIBSEQ_BENCHMARK_WITH_ADAM
@@ -73,14 +79,52 @@ void train_step(benchmark::State& state) {
 #endif
 }
 
+// Two members (distinct seeds, their own optimiser each) trained side by side: one training step of each member per
+// iteration, members spread over 2 OpenMP threads, each member single-threaded. Arguments: cell, D, H, T, B.
+// seq_per_s counts the sequences of both members, to be divided by train_step's 1-thread seq_per_s.
+void ensemble_train(benchmark::State& state) {
+  const auto cell = static_cast<CellType>(state.range(0));
+  const auto o = options_for(cell, state.range(1), state.range(2));
+  const auto t = static_cast<std::size_t>(state.range(3)), b = static_cast<std::size_t>(state.range(4));
+  constexpr int members = 2;
+  std::vector<libseq::nn::Network<float>> nets(members, libseq::nn::Network<float>(o));
+  for (int m = 0; m < members; ++m) nets[static_cast<std::size_t>(m)].initialize(7 + static_cast<std::uint64_t>(m));
+  const auto batch = batch_for(o, t, b);
+  const libseq::nn::Loss loss{libseq::nn::LossType::squared_mean, {}};
+#ifdef LIBSEQ_BENCHMARK_WITH_ADAM
+  std::vector<libseq::train::Optimizer<float>> adams;
+  for (int m = 0; m < members; ++m) adams.emplace_back(libseq::train::OptimizerOptions{}, nets[0].parameter_count());
+#endif
+  const auto train_all = [&] {
+#pragma omp parallel for num_threads(2) schedule(dynamic, 1)
+    for (int m = 0; m < members; ++m) {
+      auto& net = nets[static_cast<std::size_t>(m)];
+      benchmark::DoNotOptimize(net.loss_and_gradient(batch, loss, libseq::nn::DropoutMode::off, nullptr));
+#ifdef LIBSEQ_BENCHMARK_WITH_ADAM
+      adams[static_cast<std::size_t>(m)].step(net.parameters(), net.gradients());
+#endif
+    }
+  };
+  train_all();  // warm-up
+  for (auto _ : state) train_all();
+  const double iterations = static_cast<double>(state.iterations());
+  state.counters["seq_per_s"] =
+      benchmark::Counter(iterations * members * static_cast<double>(b), benchmark::Counter::kIsRate);
+  state.counters["GFLOP_per_s"] = benchmark::Counter(
+      iterations * members * 3.0 * forward_flops(o, state.range(3), state.range(4)) * 1e-9, benchmark::Counter::kIsRate);
+  state.SetLabel(libseq::nn::to_string(cell) + " 2 members on 2 threads");
+}
+
 void inference(benchmark::State& state) {
   const auto cell = static_cast<CellType>(state.range(0));
   const auto o = options_for(cell, state.range(1), state.range(2));
   const auto t = static_cast<std::size_t>(state.range(3)), b = static_cast<std::size_t>(state.range(4));
   libseq::nn::Network<float> net(o);
   net.initialize(7);
+  net.set_threads(static_cast<std::size_t>(state.range(5)));
   const auto batch = batch_for(o, t, b);
   std::vector<float> outputs(b * o.horizon);
+  net.predict(batch, outputs, libseq::nn::DropoutMode::off, nullptr);  // warm-up
   for (auto _ : state) {
     net.predict(batch, outputs, libseq::nn::DropoutMode::off, nullptr);
     benchmark::DoNotOptimize(outputs.data());
@@ -108,16 +152,28 @@ void eigen_gemm(benchmark::State& state) {
                          benchmark::Counter::kIsRate);
 }
 
+// cell, D, H, T, B of the engine issue.
+constexpr std::array<std::array<std::int64_t, 5>, 7> shapes{{
+    {static_cast<std::int64_t>(CellType::lstm), 5, 64, 365, 256},
+    {static_cast<std::int64_t>(CellType::lstm), 5, 128, 365, 256},
+    {static_cast<std::int64_t>(CellType::lstm), 5, 256, 365, 256},
+    {static_cast<std::int64_t>(CellType::lstm), 16, 128, 168, 128},
+    {static_cast<std::int64_t>(CellType::lstm), 1, 8, 50, 32},
+    {static_cast<std::int64_t>(CellType::gru), 5, 128, 365, 256},
+    {static_cast<std::int64_t>(CellType::elman), 5, 128, 365, 256},
+}};
+
 void configurations(benchmark::internal::Benchmark* b) {
-  const auto lstm = static_cast<std::int64_t>(CellType::lstm);
+  b->ArgNames({"cell", "D", "H", "T", "B", "threads"});
+  for (const auto& s : shapes) {
+    for (std::int64_t threads : {1, 2}) b->Args({s[0], s[1], s[2], s[3], s[4], threads});
+  }
+  b->Unit(benchmark::kMillisecond)->UseRealTime();
+}
+
+void ensemble_configurations(benchmark::internal::Benchmark* b) {
   b->ArgNames({"cell", "D", "H", "T", "B"});
-  b->Args({lstm, 5, 64, 365, 256});
-  b->Args({lstm, 5, 128, 365, 256});
-  b->Args({lstm, 5, 256, 365, 256});
-  b->Args({lstm, 16, 128, 168, 128});
-  b->Args({lstm, 1, 8, 50, 32});
-  b->Args({static_cast<std::int64_t>(CellType::gru), 5, 128, 365, 256});
-  b->Args({static_cast<std::int64_t>(CellType::elman), 5, 128, 365, 256});
+  for (const auto& s : shapes) b->Args({s[0], s[1], s[2], s[3], s[4]});
   b->Unit(benchmark::kMillisecond)->UseRealTime();
 }
 
@@ -125,6 +181,7 @@ void configurations(benchmark::internal::Benchmark* b) {
 
 BENCHMARK(train_step)->Apply(configurations);
 BENCHMARK(inference)->Apply(configurations);
+BENCHMARK(ensemble_train)->Apply(ensemble_configurations);
 BENCHMARK(eigen_gemm)->Arg(256)->Arg(512)->Unit(benchmark::kMillisecond);
 
 BENCHMARK_MAIN();
