@@ -389,3 +389,37 @@ TEST(CliRun, SameSeedGivesIdenticalResultsWithOneAndTwoThreadsPerSite) {
   // Per-site models: 2 sites × 2 members, so two threads really share the work.
   expect_identical_across_threads("threads_per_site", {{"[training]", "[training]\nscope = \"per_site\""}});
 }
+
+// Adaptive conformal inference through the test period (calibration.method = "adaptive"). Gibbs & Candès (2021,
+// Proposition 4.1): with step γ and the issued intervals' misses err_t, α_{T+1} = α_1 + γ Σ (α − err_t) stays in
+// [−γ, 1 + γ], so |(1/T) Σ err_t − α| ≤ (max(α_1, 1 − α_1) + γ) / (γ T) for any data. Here one stream per site
+// (one lead, each outcome observed before the next issue), α = α_1 = 0.1, γ = 0.05, two test years (T ≈ 730 days
+// with an observation); the last interval's outcome is never fed back, which adds at most 1/T. A stream that judged
+// misses by the raw instead of the issued interval (a bug this test was written for) drifts to coverage near 1
+// once the raw intervals are too narrow, outside the bound.
+TEST(CliRun, AdaptiveCalibrationKeepsTheLongRunMiscoverageBoundOfEachSite) {
+  const auto dir = scratch("adaptive");
+  const auto job = write_tiny_job(
+      dir, {{"horizon = 2", "horizon = 1"},
+            {"test = \"2010-07-01..2010-09-30\"", "test = \"2010-07-01..2012-06-30\""},
+            {"[baselines]", "[calibration]\nmethod = \"adaptive\"\nadaptive_step = 0.05\n\n[scoring]\nquantiles = "
+                            "[0.05, 0.25, 0.5, 0.75, 0.95]\nintervals = [0.9]\n\n[baselines]"}});
+  const auto run = run_in(dir, "run -q " + quoted(job.string()));
+  ASSERT_EQ(run.exit_code, 0) << run.err;
+  const auto results = libseq::io::read_results_hdf5(dir / "tiny-output" / "results.h5");
+  const double alpha = 0.1, gamma = 0.05;
+  std::size_t checked = 0;
+  for (const auto& row : results.metrics) {
+    if (row.metric != "coverage_90" || row.lead != -1 || row.site == "*") continue;
+    if (row.method != "network" && row.method != "final") continue;
+    ASSERT_GT(row.used, 600u) << row.site << " " << row.method;
+    const double t = static_cast<double>(row.used);
+    const double bound = (std::max(alpha, 1 - alpha) + gamma) / (gamma * t) + 1 / t;
+    const double miss = 1 - row.value;
+    std::printf("[figures] %s %s: miscoverage %.4f over %zu cases, bound |miss - 0.1| <= %.4f\n", row.site.c_str(),
+                row.method.c_str(), miss, static_cast<std::size_t>(row.used), bound);
+    EXPECT_LE(std::abs(miss - alpha), bound) << row.site << " " << row.method;
+    ++checked;
+  }
+  EXPECT_EQ(checked, 4u) << "expected network and final at both sites";
+}

@@ -247,9 +247,15 @@ bool calibrate_sets(const JobConfig& job, const detail::ScoreScale& scale,
         }
         continue;
       }
-      for (std::size_t k = 0; k < leads; ++k) {
+      // One adaptive stream per lead, or one over all leads when the calibration pools them; each stream starts
+      // from its calibration scores and is updated with an outcome once it is observed.
+      const std::size_t streams = per_lead ? leads : 1;
+      for (std::size_t g = 0; g < streams; ++g) {
+        const std::size_t first_lead = per_lead ? g : 0;
+        const std::size_t end_lead = per_lead ? g + 1 : leads;
         std::vector<double> scores;
-        for (std::size_t c = k; c < observed.size(); c += leads) {
+        for (std::size_t c = 0; c < observed.size(); ++c) {
+          if (lead_of_case[c] < first_lead || lead_of_case[c] >= end_lead) continue;
           scores.push_back(uncertainty::quantile_pair_score(lower[c], upper[c], observed[c]));
         }
         uncertainty::AdaptiveOptions adaptive;
@@ -259,7 +265,9 @@ bool calibrate_sets(const JobConfig& job, const detail::ScoreScale& scale,
         uncertainty::AdaptiveConformal aci(adaptive, scores);
         struct Pending {
           std::size_t due;
-          double lower, upper, observed;
+          double lower, upper;                // raw bounds: the score
+          double issued_lower, issued_upper;  // calibrated bounds: whether the outcome was covered
+          double observed;
         };
         std::vector<Pending> pending;
         for (std::size_t row = 0; row < set->rows(); ++row) {
@@ -267,19 +275,22 @@ bool calibrate_sets(const JobConfig& job, const detail::ScoreScale& scale,
           std::erase_if(pending, [&](const Pending& p) {
             if (p.due > issue) return false;
             if (std::isfinite(p.observed)) {
-              aci.update(p.observed >= p.lower && p.observed <= p.upper,
+              // Gibbs & Candès (2021), Eq. 2: err_t is whether the *issued* interval missed.
+              aci.update(p.observed >= p.issued_lower && p.observed <= p.issued_upper,
                          uncertainty::quantile_pair_score(p.lower, p.upper, p.observed));
             }
             return true;
           });
-          const std::size_t c = row * leads + k;
-          const double raw_lo = scale.forward(set->quantiles[c * levels + lo]);
-          const double raw_hi = scale.forward(set->quantiles[c * levels + hi]);
-          const auto interval = aci.quantile_interval(raw_lo, raw_hi);
-          set->quantiles[c * levels + lo] = scale.inverse(interval.lower);
-          set->quantiles[c * levels + hi] = scale.inverse(interval.upper);
-          const std::size_t due = job.windows.mode == data::WindowMode::forecast ? issue + 1 + k : issue;
-          pending.push_back({due, raw_lo, raw_hi, scale.forward(set->observed[c])});
+          for (std::size_t k = first_lead; k < end_lead; ++k) {
+            const std::size_t c = row * leads + k;
+            const double raw_lo = scale.forward(set->quantiles[c * levels + lo]);
+            const double raw_hi = scale.forward(set->quantiles[c * levels + hi]);
+            const auto interval = aci.quantile_interval(raw_lo, raw_hi);
+            set->quantiles[c * levels + lo] = scale.inverse(interval.lower);
+            set->quantiles[c * levels + hi] = scale.inverse(interval.upper);
+            const std::size_t due = job.windows.mode == data::WindowMode::forecast ? issue + 1 + k : issue;
+            pending.push_back({due, raw_lo, raw_hi, interval.lower, interval.upper, scale.forward(set->observed[c])});
+          }
         }
       }
     }
