@@ -52,8 +52,9 @@ std::vector<std::string> sections_of(const std::string& html) {
 
 // Hand-worked: levels 0.1, 0.5, 0.9 at quantiles 10, 20, 40. Between 10 and 20 the level rises 0.4 over 10 units,
 // so y = 15 gives 0.1 + 0.4 * 5/10 = 0.3; between 20 and 40 it rises 0.4 over 20, so y = 30 gives 0.5 + 0.4 * 10/20
-// = 0.7. Outside the stored quantiles the tails are clamped: 0 below 10, 1 above 40.
-TEST(QuantileSetPit, InterpolatesLevelsLinearlyAndClampsTheTails) {
+// = 0.7. Outside the stored quantiles, the middle of each tail: 0.1/2 = 0.05 below 10, (1 + 0.9)/2 = 0.95 above 40
+// (the convention of metrics::pit_quantiles, which the scorecard uses).
+TEST(QuantileSetPit, InterpolatesLevelsLinearlyAndPutsTheTailsAtTheirMiddles) {
   const std::vector<double> levels = {0.1, 0.5, 0.9};
   const std::vector<float> quantiles = {10, 20, 40};
   EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 15), 0.3);
@@ -61,8 +62,8 @@ TEST(QuantileSetPit, InterpolatesLevelsLinearlyAndClampsTheTails) {
   EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 20), 0.5);
   EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 10), 0.1);
   EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 40), 0.9);
-  EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 9.99), 0.0);
-  EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 1e6), 1.0);
+  EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 9.99), 0.05);
+  EXPECT_DOUBLE_EQ(quantile_set_pit(levels, quantiles, 1e6), 0.95);
 }
 
 TEST(QuantileSetPit, SortsCrossedQuantilesAveragesTiesAndRefusesMissingValues) {

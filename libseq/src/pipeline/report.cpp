@@ -11,6 +11,7 @@
 #include "libseq/caution.hpp"
 #include "libseq/data/time_axis.hpp"
 #include "libseq/error.hpp"
+#include "libseq/metrics/probabilistic.hpp"
 #include "pipeline/report_assets_impl.hpp"
 #include "pipeline/report_charts_impl.hpp"
 
@@ -37,32 +38,12 @@ void ReportOptions::validate() const {
 }
 
 double quantile_set_pit(std::span<const double> levels, std::span<const float> quantiles, double observed) {
-  const double nan = std::numeric_limits<double>::quiet_NaN();
   const std::size_t q = levels.size();
-  if (q == 0 || quantiles.size() != q || !std::isfinite(observed)) return nan;
-  std::vector<double> values(quantiles.begin(), quantiles.end());
-  if (!std::all_of(values.begin(), values.end(), [](double v) { return std::isfinite(v); })) return nan;
-  // Crossed quantiles are put in order (monotone rearrangement, Chernozhukov, Fernandez-Val & Galichon 2010,
-  // Econometrica 78(3)), so the interpolated CDF is non-decreasing.
-  std::sort(values.begin(), values.end());
-  if (observed < values.front()) return 0.0;
-  if (observed > values.back()) return 1.0;
-  // Several quantiles equal to y: F jumps there, and the middle of the jump is the unbiased choice.
-  double tied_sum = 0;
-  std::size_t tied = 0;
-  for (std::size_t j = 0; j < q; ++j) {
-    if (values[j] == observed) {
-      tied_sum += levels[j];
-      ++tied;
-    }
-  }
-  if (tied > 0) return tied_sum / static_cast<double>(tied);
-  // q_j < y < q_{j+1}: linear interpolation of the level.
-  const auto upper =
-      static_cast<std::size_t>(std::upper_bound(values.begin(), values.end(), observed) - values.begin());
-  const std::size_t lower = upper - 1;
-  const double weight = (observed - values[lower]) / (values[upper] - values[lower]);
-  return levels[lower] + weight * (levels[upper] - levels[lower]);
+  if (q == 0 || quantiles.size() != q || !std::isfinite(observed)) return std::numeric_limits<double>::quiet_NaN();
+  // The same PIT as the scorecard's (metrics::pit_quantiles), so the report and results.h5 agree.
+  const std::vector<double> values(quantiles.begin(), quantiles.end());
+  const double y[1] = {observed};
+  return metrics::pit_quantiles(y, levels, values).at(0);
 }
 
 QuantileCalibration quantile_calibration(std::span<const double> levels, std::span<const float> quantiles,
@@ -725,7 +706,8 @@ class ReportWriter {
       chart.add_reference(0, 1, 1, 1, "uniform");
       html_ += "<figure>" + chart.render() +
                "<figcaption>PIT by linear interpolation between the stored quantile "
-               "levels, 0 below the lowest and 1 above the highest quantile; a flat histogram at density 1 is "
+               "levels (a case below the lowest quantile counts at half its level, above the highest at the middle of "
+               "the upper tail, as in results.h5); a flat histogram at density 1 is "
                "calibrated, a U shape too narrow, a hump too wide.</figcaption></figure>\n";
     }
     {

@@ -51,8 +51,9 @@ std::string render_report(const io::RunResults& results, const ReportOptions& op
 void write_report(const std::filesystem::path& path, const io::RunResults& results, const ReportOptions& options = {});
 
 /// PIT of one observation from a quantile set: the predictive CDF F(y) taken as the piecewise-linear curve through
-/// the points (q_j, τ_j), with F = 0 below the lowest quantile and F = 1 above the highest (the tails, which a
-/// quantile set does not describe, are clamped). Crossed quantiles are sorted first; where several quantiles equal
+/// the points (q_j, τ_j); below the lowest quantile τ_1/2 and above the highest (1 + τ_Q)/2, the middle of the tail
+/// that a quantile set does not describe (metrics::pit_quantiles, so the report agrees with the scorecard).
+/// Crossed quantiles are sorted first; where several quantiles equal
 /// y the result is the mean of their levels. `levels` (Q values in (0, 1), increasing) pairs with `quantiles`
 /// (Q values). Returns NaN when y or a quantile is not finite, or when Q is 0 or the sizes differ.
 double quantile_set_pit(std::span<const double> levels, std::span<const float> quantiles, double observed);
