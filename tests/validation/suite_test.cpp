@@ -17,6 +17,9 @@
 #include <string>
 #include <vector>
 
+#include "baselines/reference_file.hpp"
+#include "libseq/baselines/exp_smoothing.hpp"
+#include "libseq/baselines/local_level.hpp"
 #include "libseq/io/results.hpp"
 #include "libseq/pipeline/job.hpp"
 #include "libseq/pipeline/run.hpp"
@@ -34,7 +37,7 @@ const std::vector<std::string>& suite_jobs() {
   static const std::vector<std::string> jobs = {"ice_river_a_per_site", "ice_river_a_across",
                                                 "ice_river_b_per_site", "ice_river_b_across",
                                                 "ice_river_c_per_site", "ice_river_c_across",
-                                                "taylor_day_ahead"};
+                                                "taylor_day_ahead", "published_results"};
   return jobs;
 }
 
@@ -354,3 +357,67 @@ TEST(ThreadIndependence, IceRiverJobGivesIdenticalMetricsWithOneAndTwoThreads) {
 }
 
 }  // namespace
+
+// ---- Published results: Nile local level (Durbin & Koopman 2012) and exponential smoothing (statsmodels) --------------
+// The same pass rules as tests/baselines/local_level_test.cpp and exp_smoothing_test.cpp, re-run here so that the
+// figures in docs/validation.md are generated, not typed.
+
+TEST(PublishedResults, NileVariancesAndExponentialSmoothingFitsMatchTheirReferences) {
+  namespace lb = libseq::baselines;
+  std::ostringstream out;
+  out << "#### Published results reproduced\n\n";
+  out << "| check | reference | runnel | reference value | ratio | pass rule |\n|---|---|---|---|---|---|\n";
+  // Durbin & Koopman (2012, 2nd ed.), ch. 2, Nile: σ²_ε = 15099, σ²_η = 1469.1; within 0.5 %.
+  const auto nile = libseq::test::read_csv_column("validation/datasets/nile.csv", "flow");
+  ASSERT_EQ(nile.size(), 100u);
+  lb::SeriesSet series{nile, {}, {}};
+  lb::LocalLevel local_level;
+  local_level.fit(series, {0, 100}, {});
+  const std::pair<const char*, std::pair<double, double>> variances[] = {
+      {"Nile local level σ²_ε", {local_level.observation_variance(), 15099.0}},
+      {"Nile local level σ²_η", {local_level.level_variance(), 1469.1}}};
+  for (const auto& [name, values] : variances) {
+    const auto [ours, theirs] = values;
+    EXPECT_NEAR(ours, theirs, 0.005 * theirs) << name;
+    out << "| " << name << " (maximum likelihood) | Durbin & Koopman (2012), ch. 2 | " << cell(ours, 2) << " | "
+        << cell(theirs, 1) << " | " << cell(ours / theirs, 5) << " | within 0.5 % |\n";
+  }
+  // statsmodels 0.13.5 ExponentialSmoothing (validation/exp_smoothing/make_reference.py): our own fit's SSE must be
+  // no worse than statsmodels' × (1 + 1e-3).
+  const auto reference = libseq::test::read_reference("validation/exp_smoothing/reference.txt");
+  struct Fit {
+    const char* key;
+    const char* label;
+    const char* file;
+    const char* column;
+    bool log;
+    lb::SmoothingModel model;
+    std::size_t period;
+  };
+  const Fit fits[] = {
+      {"ses_nile", "simple exponential smoothing, Nile", "nile.csv", "flow", false, lb::SmoothingModel::simple, 0},
+      {"holt_nile", "Holt linear trend, Nile", "nile.csv", "flow", false, lb::SmoothingModel::holt, 0},
+      {"hw_log_air", "Holt-Winters additive, log AirPassengers", "air_passengers.csv", "passengers", true,
+       lb::SmoothingModel::holt_winters, 12},
+      {"hw_co2", "Holt-Winters additive, co2", "co2.csv", "co2_ppm", false, lb::SmoothingModel::holt_winters, 12}};
+  for (const auto& f : fits) {
+    auto y = libseq::test::read_csv_column(std::string("validation/datasets/") + f.file, f.column);
+    if (f.log) {
+      for (double& v : y) v = std::log(v);
+    }
+    lb::ExpSmoothingOptions options;
+    options.model = f.model;
+    options.period_steps = f.period;
+    lb::ExpSmoothing model(options);
+    lb::SeriesSet s{y, {}, {}};
+    model.fit(s, {0, y.size()}, {});
+    const auto it = reference.find(std::string(f.key) + ".sse");
+    ASSERT_NE(it, reference.end()) << f.key;
+    const double theirs = it->second.at(0);
+    EXPECT_LE(model.sse(), theirs * (1.0 + 1e-3)) << f.key;
+    out << "| " << f.label << ", SSE of the fit | statsmodels 0.13.5 `ExponentialSmoothing` | " << cell(model.sse(), 6)
+        << " | " << cell(theirs, 6) << " | " << cell(model.sse() / theirs, 6) << " | ratio ≤ 1.001 |\n";
+  }
+  publish_table("published_results", out.str());
+}
+
