@@ -10,16 +10,18 @@
 //                                       of lag 5 (asserted).
 //   long task, T = 160, k = 5 and 150:  the Elman net learns k = 5 and fails k = 150, and its initial gradient at
 //                                       lag 150 is four orders of magnitude below the LSTM's and the GRU's (all
-//                                       asserted). The GRU learns k = 150 (asserted). The LSTM learns k = 150 in 1
-//                                       of 5 seeds, not with the test's seed (not asserted, see 6.).
+//                                       asserted). The GRU learns k = 150 (asserted). The LSTM with the library's
+//                                       forget-gate bias 1 learns k = 150 in 1 of 5 seeds, not with the test's seed
+//                                       (not asserted, see 6.); with chrono initialisation it learns k = 5 and
+//                                       k = 150 in all 5 seeds (asserted, see 9.).
 //
 // Settings (ours), both tasks: 512 training and 256 validation sequences, 16 hidden units, Adam with rate 3e-3,
 // batch 32, clipping at norm 1, best validation weights kept, seed 5; 60 epochs on the short task, 100 on the long
 // one. The GRU starts with its update-gate bias at +3 (z ≈ 0.95, "keep the state"), the idea of chrono
 // initialisation (Tallec & Ollivier 2018, "Can recurrent neural networks warp time?", Section 3): with zero biases
 // z ≈ 0.5, its diagnostic at lag 60 was 3e-9 of lag 0 at initialisation and the GRU never left the plateau. The
-// LSTM keeps the library's forget-gate bias 1, the Elman net the library's initialisation (orthogonal recurrent
-// weights, singular values 1).
+// LSTM keeps the library's forget-gate bias 1, except in the chrono test (note 9), the Elman net the library's
+// initialisation (orthogonal recurrent weights, singular values 1).
 //
 // Pass rules (ours), relative to the target variance 1/3 (the MSE of predicting 0):
 // - "learns": best validation MSE < 0.10 of the variance.
@@ -58,9 +60,39 @@
 // 8. A concurrent change to libseq/src/nn (float rounding level) between runs moved the seed-5 figures to LSTM
 //    k = 60 0.0200, GRU k = 60 0.0004, GRU k = 150 0.0005 (trained ratio 45); Elman's were unchanged to 4 digits.
 //    Every asserted outcome held.
+// 9. LSTM with chrono initialisation (Tallec & Ollivier 2018, Section 3; formula from memory, the paper was not at
+//    hand): forget-gate biases b_f ~ log(U(1, T_max − 1)), one draw per hidden unit, input-gate biases b_i = −b_f,
+//    the other biases as the library sets them (zero). Decided before any chrono run, with its reasons:
+//    - T_max = the task's sequence length T (160 on the long task), for k = 5 and k = 150 alike. No dependency in a
+//      T-step sequence is longer than T − 1 steps, so T bounds the dependencies expected; it does not use the lag
+//      the targets mark (which a user would not know), and it gives the k = 5 control the same initialisation as
+//      the k = 150 run. The alternative T_max = k (150) was not run.
+//    - The biases go on the input bias blocks (gate order i, f, g, o: rows 0..H−1 the input gate, H..2H−1 the
+//      forget gate); the recurrent biases of both gates stay 0, so b_f, b_i are the whole gate biases. The library's
+//      forget-gate bias 1 is replaced.
+//    - The draw: std::mt19937_64 seeded with 1000 + the run's seed (not the seed itself, which the network's own
+//      initialisation uses, so the biases are not the first numbers of the weights' stream), u = 53-bit uniform in
+//      [0, 1) (as the library's initialisation), b_f = log(1 + u·(T_max − 2)), in [0, log 159 ≈ 5.07).
+//    - Runs: long task, k = 5 and k = 150, seeds 1–5 (the seed of the network, the shuffle and the draw; sequences
+//      as for the GRU), 100 epochs; then the test keeps seed 5. Assert "learns" at k = 150 only if all five seeds
+//      learn it (the rule above); otherwise record the figures and leave it unasserted.
+//    Results (seeds in the order 1, 2, 3, 4, 5; best validation MSE / variance). Built with the uncommitted
+//    libseq/src/nn change in progress on 2026-12-02 and run twice (the second time to read the validation curves),
+//    with identical figures; the whole file at seed 5, rebuilt with the committed libseq/src/nn of commit 4a2525a,
+//    printed the same figures for every cell (and, for the other cells, those of note 8):
+//      k = 150: 0.0003, 0.0001, 0.0002, 0.0004, 0.0004 — learned in 5 of 5 (library bias 1: 1 of 5, note 7);
+//               first epoch (0-based) below 0.10: 10, 10, 11, 13, 9; initial ratio 6.9e-2, 0.15, 0.25, 1.6e-2,
+//               0.19 (library bias 1: 2.1e-4 … 4.3e-3); trained ratio 96, 91, 72, 62, 118.
+//      k = 5:   0.0007, 0.0011, 0.0009, 0.0010, 0.0004; first epoch below 0.10: 16, 14, 17, 13, 12.
+//    So the rule was met and the test asserts "learns" at k = 5 and k = 150 and, as for the GRU, a trained ratio
+//    above 1 at k = 150, with seed 5. Unlike the +3 forget bias of note 6 (initial ratio 13.9, not learned), chrono
+//    also sets the input gate to b_i = −b_f, so a unit that keeps its cell for long also writes into it little
+//    (σ(−5) ≈ 0.007); distractors then overwrite the stored value slowly. This is our reading, not something the
+//    test checks. The test file runs in about 20 s (8 s before this test), single-threaded on a busy 2-core machine.
 
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <cstdio>
 #include <random>
 
@@ -112,8 +144,29 @@ struct Outcome {
   TrainSummary summary;
 };
 
+// LSTM gate biases: the library's (forget-gate input bias 1, others 0) or chrono initialisation (note 9).
+enum class LstmBiases { library, chrono };
+
+// Chrono initialisation (Tallec & Ollivier 2018, Section 3; from memory): per hidden unit j, b_f,j =
+// log(U(1, t_max − 1)) and b_i,j = −b_f,j, on the input biases (gate order i, f, g, o). The recurrent biases of these
+// gates must be 0 so that the input biases are the whole gate biases; the library initialises them so (checked).
+void set_chrono_biases(nn::Network<float>& network, std::size_t hidden, std::size_t t_max, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  const auto& input_bias = network.block("layer0.input_bias");
+  const auto& recurrent_bias = network.block("layer0.recurrent_bias");
+  for (std::size_t j = 0; j < hidden; ++j) {
+    const double u = static_cast<double>(rng() >> 11) * 0x1.0p-53;  // [0, 1), 53 bits
+    const double forget = std::log(1.0 + u * static_cast<double>(t_max - 2));
+    network.parameters()[input_bias.offset + j] = static_cast<float>(-forget);
+    network.parameters()[input_bias.offset + hidden + j] = static_cast<float>(forget);
+    EXPECT_EQ(network.parameters()[recurrent_bias.offset + j], 0.0f);
+    EXPECT_EQ(network.parameters()[recurrent_bias.offset + hidden + j], 0.0f);
+  }
+}
+
 // Trains `cell` on the task with targets `lag` steps back; `epochs` 0 means the task's budget.
-Outcome run(nn::CellType cell, const Task& task, std::size_t lag, std::size_t epochs = 0) {
+Outcome run(nn::CellType cell, const Task& task, std::size_t lag, std::size_t epochs = 0,
+            LstmBiases lstm_biases = LstmBiases::library) {
   const auto training = memory_set(512, task.steps, lag, 10 + lag);
   const auto validation = memory_set(256, task.steps, lag, 20 + lag);
   nn::NetworkOptions net;
@@ -136,6 +189,12 @@ Outcome run(nn::CellType cell, const Task& task, std::size_t lag, std::size_t ep
     const auto& bias = network.block("layer0.input_bias");
     for (std::size_t j = 0; j < net.hidden_size; ++j) network.parameters()[bias.offset + net.hidden_size + j] = 3.0f;
   }
+  const bool chrono = cell == nn::CellType::lstm && lstm_biases == LstmBiases::chrono;
+  if (chrono) {
+    network.initialize(options.seed);
+    options.initialize_network = false;
+    set_chrono_biases(network, net.hidden_size, task.steps, 1000 + options.seed);
+  }
   Outcome outcome;
   outcome.summary = Trainer<float>(options).train(network, training, &validation);
   const std::vector<std::size_t> lags{0, short_lag, task.long_lag};
@@ -143,10 +202,10 @@ Outcome run(nn::CellType cell, const Task& task, std::size_t lag, std::size_t ep
   EXPECT_EQ(outcome.summary.final_gradient.lags, lags);
   outcome.relative_mse = outcome.summary.best_loss / target_variance;
   std::printf(
-      "%s T=%zu k=%zu: best validation MSE / variance = %.4f; |dL/dx| lag %zu / lag %zu initial %.3e, "
+      "%s%s T=%zu k=%zu: best validation MSE / variance = %.4f; |dL/dx| lag %zu / lag %zu initial %.3e, "
       "final %.3e (%s)\n",
-      nn::to_string(cell).c_str(), task.steps, lag, outcome.relative_mse, task.long_lag, short_lag,
-      long_over_short(outcome.summary.initial_gradient), long_over_short(outcome.summary.final_gradient),
+      nn::to_string(cell).c_str(), chrono ? " (chrono)" : "", task.steps, lag, outcome.relative_mse, task.long_lag,
+      short_lag, long_over_short(outcome.summary.initial_gradient), long_over_short(outcome.summary.final_gradient),
       outcome.summary.brief_report().c_str());
   return outcome;
 }
@@ -203,6 +262,17 @@ TEST(MemoryTask, GradientAtOneHundredFiftyStepsVanishesForElmanNotForLstmOrGru) 
   EXPECT_LT(long_over_short(elman), 1e-3) << elman.report();
   EXPECT_LT(long_over_short(elman), 1e-2 * long_over_short(lstm)) << lstm.report();
   EXPECT_LT(long_over_short(elman), 1e-2 * long_over_short(gru)) << gru.report();
+}
+
+// Long task, LSTM with chrono initialisation (note 9): learns k = 5 and k = 150 below 0.10 of the variance (seeds
+// 1–5: k = 5 0.0004 … 0.0011, k = 150 0.0001 … 0.0004, first below 0.10 at epoch 9 … 13 of 100), and at k = 150 its
+// trained ratio exceeds 1, for the reason given at the GRU's test (62 … 118 over seeds 1–5).
+TEST(MemoryTask, ChronoInitialisedLstmRecallsFiveAndOneHundredFiftyStepsBack) {
+  const Outcome short_outcome = run(nn::CellType::lstm, long_task, short_lag, 0, LstmBiases::chrono);
+  EXPECT_LT(short_outcome.relative_mse, learned_below) << short_outcome.summary.full_report();
+  const Outcome long_outcome = run(nn::CellType::lstm, long_task, long_task.long_lag, 0, LstmBiases::chrono);
+  EXPECT_LT(long_outcome.relative_mse, learned_below) << long_outcome.summary.full_report();
+  EXPECT_GT(long_over_short(long_outcome.summary.final_gradient), 1.0) << long_outcome.summary.full_report();
 }
 
 }  // namespace libseq::train
