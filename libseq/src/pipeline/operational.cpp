@@ -121,23 +121,6 @@ std::string interval_prefix(std::size_t model, std::size_t interval) {
   return model_prefix(model) + "interval" + std::to_string(interval) + ".";
 }
 
-std::size_t level_position(const std::vector<double>& levels, double level) {
-  for (std::size_t i = 0; i < levels.size(); ++i) {
-    if (std::abs(levels[i] - level) < 1e-9) return i;
-  }
-  throw DataError("internal: quantile level " + std::to_string(level) + " is not among the reported levels");
-}
-
-std::size_t target_step(const data::WindowOptions& w, std::size_t issue, std::size_t lead) {
-  return w.mode == data::WindowMode::forecast ? issue + 1 + lead : issue;
-}
-
-std::string now_iso() {
-  const auto seconds =
-      std::chrono::duration_cast<std::chrono::seconds>(std::chrono::system_clock::now().time_since_epoch()).count();
-  return data::format_iso8601(seconds);
-}
-
 // ---------------------------------------------------------------------------------------------------------------
 // Reading a bundle back
 // ---------------------------------------------------------------------------------------------------------------
@@ -293,7 +276,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
   bundle.text["job.seed"] = std::to_string(job.seed);
   bundle.text["provenance.library_version"] = version();
   bundle.text["provenance.git_commit"] = git_commit();
-  bundle.text["provenance.created"] = now_iso();
+  bundle.text["provenance.created"] = detail::now_iso();
   std::string inputs;
   for (const auto& f : job.files) inputs += io::sha256_of_file(f) + "  " + f.string() + "\n";
   bundle.text["provenance.inputs"] = inputs;
@@ -315,13 +298,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
   bundle.text["calibration.method"] = to_string(job.calibration);
 
   // ---- Models, exactly as run_job groups, seeds and trains them ----------------------------------------------------
-  std::vector<std::vector<std::size_t>> models;
-  if (job.scope == ModelScope::across_sites) {
-    models.emplace_back();
-    for (std::size_t s = 0; s < site_count; ++s) models.back().push_back(s);
-  } else {
-    for (std::size_t s = 0; s < site_count; ++s) models.push_back({s});
-  }
+  const std::vector<std::vector<std::size_t>> models = detail::model_sites(job, site_count);
   const uncertainty::EnsembleOptions ensemble_options = detail::ensemble_options_for(job, plan);
   const data::IndexRange fit_range = data::index_range(axis, job.periods.fit);
   const auto all_train = data::make_windows(table, job.windows, fit_range, true);
@@ -393,14 +370,14 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
     for (std::size_t c = 0; c < cal_dist.cases; ++c) {
       const auto& w = calibration.windows()[c / leads];
       observed.push_back(
-          score_scale.forward(table.observed_target(w.site, target_step(job.windows, w.issue, c % leads))));
+          score_scale.forward(table.observed_target(w.site, detail::target_step(job.windows, w.issue, c % leads))));
       lead_of_case.push_back(c % leads);
     }
     const bool per_lead = detail::calibrate_per_lead(job, observed, lead_of_case, leads);
     for (std::size_t i = 0; i < job.intervals.size(); ++i) {
       const double coverage = job.intervals[i];
-      const std::size_t lo = level_position(job.quantiles, (1 - coverage) / 2);
-      const std::size_t hi = level_position(job.quantiles, (1 + coverage) / 2);
+      const std::size_t lo = detail::level_position(job.quantiles, (1 - coverage) / 2);
+      const std::size_t hi = detail::level_position(job.quantiles, (1 + coverage) / 2);
       std::vector<double> lower, upper;
       for (std::size_t c = 0; c < cal_dist.cases; ++c) {
         lower.push_back(score_scale.forward(cal_dist.quantiles[c * level_count + lo]));
@@ -618,8 +595,8 @@ ForecastResult forecast_from_bundle(const std::filesystem::path& bundle_path,
       any_calibrated = true;
       for (std::size_t i = 0; i < job.intervals.size(); ++i) {
         const auto calibrator = uncertainty::Calibrator::from_state(read_calibrator(r, interval_prefix(m, i)));
-        const std::size_t lo = level_position(job.quantiles, (1 - job.intervals[i]) / 2);
-        const std::size_t hi = level_position(job.quantiles, (1 + job.intervals[i]) / 2);
+        const std::size_t lo = detail::level_position(job.quantiles, (1 - job.intervals[i]) / 2);
+        const std::size_t hi = detail::level_position(job.quantiles, (1 + job.intervals[i]) / 2);
         for (std::size_t c = 0; c < dist.cases; ++c) {
           const auto interval =
               calibrator.quantile_interval(score_scale.forward(dist.quantiles[c * level_count + lo]),

@@ -99,6 +99,19 @@ class ScoreScale {
   double floor_;  // forward() of values at or below the domain's edge
 };
 
+/// Target step of lead index `lead` (0-based) of a sample issued at `issue`: issue + 1 + lead in forecast mode, the
+/// issue step itself in simulation mode.
+std::size_t target_step(const data::WindowOptions& w, std::size_t issue, std::size_t lead);
+
+/// Position of `level` among the reported quantile levels. @throws libseq::DataError when it is not one of them.
+std::size_t level_position(const std::vector<double>& levels, double level);
+
+/// The sites of each model: one model over all sites (across_sites) or one per site (per_site).
+std::vector<std::vector<std::size_t>> model_sites(const JobConfig& job, std::size_t site_count);
+
+/// The current UTC time, ISO 8601 (provenance).
+std::string now_iso();
+
 /// Standard error of the mean of d = a − b over the cases where both are finite, with the autocovariances of d up
 /// to lag `overlap` (the rectangular window of Diebold & Mariano 1995 for h-step forecasts, overlap = h − 1, as R
 /// `forecast::dm.test` with varestimator "acf"); the lag-0 variance alone when that sum is not positive. 0 when

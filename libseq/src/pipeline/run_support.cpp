@@ -1,10 +1,12 @@
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <limits>
 #include <map>
 #include <optional>
 #include <set>
 
+#include "libseq/data/time_axis.hpp"
 #include "libseq/error.hpp"
 #include "libseq/io/reader.hpp"
 #include "run_impl.hpp"
@@ -178,6 +180,34 @@ bool calibrate_per_lead(const JobConfig& job, std::span<const double> observed, 
     if (std::isfinite(observed[c]) && lead[c] < leads) ++count[lead[c]];
   }
   return *std::min_element(count.begin(), count.end()) >= job.calibration_min_cases;
+}
+
+std::size_t target_step(const data::WindowOptions& w, std::size_t issue, std::size_t lead) {
+  return w.mode == data::WindowMode::forecast ? issue + 1 + lead : issue;
+}
+
+std::size_t level_position(const std::vector<double>& levels, double level) {
+  for (std::size_t i = 0; i < levels.size(); ++i) {
+    if (std::abs(levels[i] - level) < 1e-9) return i;
+  }
+  throw DataError("internal: quantile level " + std::to_string(level) + " is not among the reported levels");
+}
+
+std::vector<std::vector<std::size_t>> model_sites(const JobConfig& job, std::size_t site_count) {
+  std::vector<std::vector<std::size_t>> models;
+  if (job.scope == ModelScope::across_sites) {
+    models.emplace_back();
+    for (std::size_t s = 0; s < site_count; ++s) models.back().push_back(s);
+  } else {
+    for (std::size_t s = 0; s < site_count; ++s) models.push_back({s});
+  }
+  return models;
+}
+
+std::string now_iso() {
+  const auto seconds =
+      std::chrono::duration_cast<std::chrono::seconds>(std::chrono::system_clock::now().time_since_epoch()).count();
+  return data::format_iso8601(seconds);
 }
 
 double difference_standard_error(const std::vector<double>& a, const std::vector<double>& b, std::size_t overlap) {
