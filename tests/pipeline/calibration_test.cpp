@@ -5,6 +5,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <algorithm>
 #include <fstream>
 #include <limits>
 #include <random>
@@ -168,6 +169,26 @@ TEST(CalibrationLeads, AutoCalibratesEachLeadOnlyWhenEveryLeadHasEnoughCases) {
   job.calibration_leads = CalibrationLeads::automatic;
   job.calibration_min_cases = 1000;
   EXPECT_TRUE(detail::calibrate_per_lead(job, observed, std::vector<std::size_t>(8, 0), 1));  // one lead: no choice
+}
+
+// Hand-worked: levels 0.025, 0.05, 0.1, 0.5, 0.9, 0.95, 0.975 and intervals 80 % (0.1, 0.9) and 95 % (0.025,
+// 0.975). Calibration widened the 80 % interval to [5, 95] but narrowed the 95 % one to [8, 92]; the 0.05 and 0.95
+// levels (no interval's bounds) stayed at 12 and 88. Nesting makes the 95 % interval [5, 95]; the 0.05 level lies
+// between bounds 5 (0.025) and 5 (0.1), so it becomes 5, and the 0.95 level becomes 95. Sorting alone would give
+// 5, 8, 12, 50, 88, 92, 95: an 80 % interval of [12, 88], narrower than calibrated.
+TEST(OrderCalibratedQuantiles, NestsIntervalsAndClampsOtherLevelsInsteadOfSwappingBounds) {
+  const std::vector<double> levels{0.025, 0.05, 0.1, 0.5, 0.9, 0.95, 0.975};
+  const std::vector<double> intervals{0.95, 0.8};  // any order
+  std::vector<double> q{8, 12, 5, 50, 95, 88, 92,
+                        // a second case already in order is left as it is
+                        1, 2, 3, 4, 5, 6, 7};
+  detail::order_calibrated_quantiles(q, levels, intervals);
+  const std::vector<double> expected{5, 5, 5, 50, 95, 95, 95, 1, 2, 3, 4, 5, 6, 7};
+  EXPECT_EQ(q, expected);
+  // An interval narrowed past its centre (lower bound above upper): the clamp has no room, so the case is sorted.
+  std::vector<double> crossed{1, 2, 60, 50, 40, 8, 9};
+  detail::order_calibrated_quantiles(crossed, levels, {0.8});
+  EXPECT_TRUE(std::is_sorted(crossed.begin(), crossed.end()));
 }
 
 // Reference: R `forecast::dm.test` (forecast 8.20, R 4.2.2; Diebold & Mariano 1995 with the correction of Harvey,

@@ -143,7 +143,9 @@ bool calibrate_sets(const JobConfig& job, const ScoreScale& scale, const std::ve
       }
     }
   }
-  for (CaseSet* set : test) sort_case_quantiles(set->quantiles, levels);
+  for (CaseSet* set : test) {
+    order_calibrated_quantiles(set->quantiles, job.quantiles, job.intervals);
+  }
   return true;
 }
 

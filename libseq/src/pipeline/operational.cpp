@@ -605,7 +605,7 @@ ForecastResult forecast_from_bundle(const std::filesystem::path& bundle_path,
           dist.quantiles[c * level_count + hi] = score_scale.inverse(interval.upper);
         }
       }
-      detail::sort_case_quantiles(dist.quantiles, level_count);
+      detail::order_calibrated_quantiles(dist.quantiles, job.quantiles, job.intervals);
     }
     for (std::size_t i = 0; i < model_windows.size(); ++i) {
       const std::size_t s = model_windows[i].site;

@@ -139,6 +139,15 @@ std::uint64_t model_seed(std::uint64_t job_seed, std::size_t model);
 data::Panel read_joined_panel(const std::vector<std::filesystem::path>& files, const io::ReadOptions& read,
                               std::vector<std::string>& warnings);
 
+/// Puts each case's quantiles in order after calibration without moving the calibrated interval bounds between
+/// levels: (1) from the narrowest coverage to the widest, a wider interval's bounds are extended to contain the next
+/// narrower one's (intervals are calibrated one by one and may cross; extending can only raise the wider interval's
+/// coverage); (2) every other level is clamped between the bounds at the levels below and above it; (3) what is
+/// still out of order (an interval narrowed past its centre, NaN) is sorted, NaN last. Sorting alone would swap a
+/// widened bound with a neighbouring level and so narrow the interval it belongs to.
+void order_calibrated_quantiles(std::vector<double>& quantiles, const std::vector<double>& levels,
+                                const std::vector<double>& intervals);
+
 /// Sorts each case's `width` quantiles (NaN last) so that calibrated bounds never cross (as the batch job does).
 void sort_case_quantiles(std::vector<double>& quantiles, std::size_t width);
 

@@ -210,6 +210,40 @@ std::string now_iso() {
   return data::format_iso8601(seconds);
 }
 
+void order_calibrated_quantiles(std::vector<double>& quantiles, const std::vector<double>& levels,
+                                const std::vector<double>& intervals) {
+  std::vector<double> order(intervals);
+  std::sort(order.begin(), order.end());
+  std::vector<std::pair<std::size_t, std::size_t>> bounds;
+  std::vector<bool> is_bound(levels.size(), false);
+  for (double coverage : order) {
+    bounds.emplace_back(level_position(levels, (1 - coverage) / 2), level_position(levels, (1 + coverage) / 2));
+    is_bound[bounds.back().first] = is_bound[bounds.back().second] = true;
+  }
+  const std::size_t width = levels.size();
+  const double inf = std::numeric_limits<double>::infinity();
+  for (std::size_t c = 0; width > 0 && c + width <= quantiles.size(); c += width) {
+    double* q = quantiles.data() + c;
+    for (std::size_t i = 1; i < bounds.size(); ++i) {
+      const double inner_lo = q[bounds[i - 1].first];
+      const double inner_hi = q[bounds[i - 1].second];
+      if (inner_lo < q[bounds[i].first]) q[bounds[i].first] = inner_lo;  // false for NaN
+      if (inner_hi > q[bounds[i].second]) q[bounds[i].second] = inner_hi;
+    }
+    for (std::size_t j = 0; j < width; ++j) {
+      if (is_bound[j] || std::isnan(q[j])) continue;
+      double below = -inf, above = inf;
+      for (std::size_t i = 0; i < width; ++i) {
+        if (!is_bound[i] || std::isnan(q[i])) continue;
+        if (i < j) below = std::max(below, q[i]);
+        if (i > j) above = std::min(above, q[i]);
+      }
+      if (below <= above) q[j] = std::clamp(q[j], below, above);
+    }
+  }
+  sort_case_quantiles(quantiles, width);
+}
+
 double difference_standard_error(const std::vector<double>& a, const std::vector<double>& b, std::size_t overlap) {
   std::vector<double> d;
   for (std::size_t i = 0; i < a.size() && i < b.size(); ++i) {
