@@ -390,6 +390,13 @@ TEST(CliRun, SameSeedGivesIdenticalResultsWithOneAndTwoThreadsPerSite) {
   expect_identical_across_threads("threads_per_site", {{"[training]", "[training]\nscope = \"per_site\""}});
 }
 
+TEST(CliRun, SameSeedGivesIdenticalResultsWhenPerSiteModelsTrainInParallel) {
+  // Per-site models with one member each: more models than members, so the run trains the two models side by side
+  // (docs/methods.md, determinism) instead of one model's members side by side.
+  expect_identical_across_threads("threads_models",
+                                  {{"[training]", "[training]\nscope = \"per_site\""}, {"members = 2", "members = 1"}});
+}
+
 // Adaptive conformal inference through the test period (calibration.method = "adaptive"). Gibbs & Candès (2021,
 // Proposition 4.1): with step γ and the issued intervals' misses err_t, α_{T+1} = α_1 + γ Σ (α − err_t) stays in
 // [−γ, 1 + γ], so |(1/T) Σ err_t − α| ≤ (max(α_1, 1 − α_1) + γ) / (γ T) for any data. Here one stream per site

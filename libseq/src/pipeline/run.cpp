@@ -6,6 +6,7 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <exception>
 #include <map>
 #include <set>
 #include <sstream>
@@ -251,12 +252,26 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   };
   if (!run_options.resume) std::filesystem::remove_all(checkpoint_dir);
   std::filesystem::create_directories(checkpoint_dir);
-  for (std::size_t m = 0; m < models.size(); ++m) {
+  // What training one model adds to the results, kept apart so that models can train in parallel and still be
+  // merged in model order (the same results for any thread count).
+  struct ModelLog {
+    std::vector<io::TrainingRecord> training;
+    std::vector<std::uint64_t> seeds;
+    std::vector<std::string> warnings;
+    bool trained = false;
+    bool resumed = false;
+    std::exception_ptr error;
+  };
+  std::vector<ModelLog> logs(models.size());
+  // Each model writes only its own sites' slots (raw_test, raw_selection, raw_calibration, member_blocks) and its
+  // own log. HDF5 (checkpoints) is not thread-safe in Debian's serial build, hence the named critical sections.
+  auto train_one = [&](std::size_t m, ModelLog& log) {
     const auto& model_sites = models[m];
     const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
-    report("training", "model " + model_name, m, models.size());
     if (run_options.resume && std::filesystem::exists(checkpoint_path(m))) {
-      const io::RunResults done = io::read_results_hdf5(checkpoint_path(m));
+      io::RunResults done;
+#pragma omp critical(runnel_hdf5)
+      done = io::read_results_hdf5(checkpoint_path(m));
       if (done.summary == fingerprint && done.sites.size() == 3 * model_sites.size()) {
         for (std::size_t i = 0; i < model_sites.size(); ++i) {
           const std::size_t s = model_sites[i];
@@ -267,37 +282,36 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
           member_blocks[s].members = done.sites[3 * i].methods.at(0).members;
         }
         for (const auto& record : done.training) {
-          results.training.push_back(record);
-          results.provenance.seeds.push_back(record.seed);
+          log.training.push_back(record);
+          log.seeds.push_back(record.seed);
         }
-        ++summary.models_resumed;
-        continue;
+        log.resumed = true;
+        return;
       }
-      results.warnings.push_back("model " + model_name +
-                                 ": its checkpoint belongs to another job, seed or input; "
-                                 "trained again");
+      log.warnings.push_back("model " + model_name +
+                             ": its checkpoint belongs to another job, seed or input; "
+                             "trained again");
     }
-    const std::size_t records_before = results.training.size();
     const std::optional<uncertainty::Ensemble> trained =
         detail::train_model(table, job, ensemble_options, all_train, all_validation, model_sites, m);
     if (!trained) {
-      results.warnings.push_back("model " + model_name +
-                                 ": no training window with an observed target in the fit "
-                                 "period; the network is skipped there");
-      continue;
+      log.warnings.push_back("model " + model_name +
+                             ": no training window with an observed target in the fit "
+                             "period; the network is skipped there");
+      return;
     }
     const uncertainty::Ensemble& ensemble = *trained;
-    ++summary.models_trained;
+    log.trained = true;
     for (std::size_t k = 0; k < ensemble.members().size(); ++k) {
       const auto& member = ensemble.members()[k];
       const auto& ts = member.summary;
       io::TrainingRecord record = detail::training_record(model_name, k, member);
       if (ts.termination == train::TerminationReason::diverged) {
-        results.warnings.push_back("model " + model_name + ", member " + std::to_string(k) + ": training diverged (" +
-                                   ts.termination_detail + "); member left out");
+        log.warnings.push_back("model " + model_name + ", member " + std::to_string(k) + ": training diverged (" +
+                               ts.termination_detail + "); member left out");
       }
-      results.training.push_back(std::move(record));
-      results.provenance.seeds.push_back(member.seed);
+      log.training.push_back(std::move(record));
+      log.seeds.push_back(member.seed);
     }
 
     // Raw (uncalibrated) network distributions on the test, selection and calibration periods, per site.
@@ -359,9 +373,45 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
         checkpoint.sites.push_back(std::move(site));
       }
     }
-    checkpoint.training.assign(results.training.begin() + static_cast<std::ptrdiff_t>(records_before),
-                               results.training.end());
+    checkpoint.training = log.training;
+#pragma omp critical(runnel_hdf5)
     io::write_results_hdf5(checkpoint_path(m), checkpoint);
+  };
+  // Parallel over models when there are more models than members (per-site models at many sites); otherwise one
+  // model at a time with its members in parallel (Ensemble::train). An OpenMP region inside another runs on one
+  // thread, so a member's work never depends on which way was taken.
+  const bool across_models = threads > 1 && models.size() > job.members;
+  std::size_t models_done = 0;
+  auto guarded = [&](std::size_t m) {
+    try {
+      train_one(m, logs[m]);
+    } catch (...) {
+      logs[m].error = std::current_exception();
+    }
+#pragma omp critical(runnel_progress)
+    {
+      ++models_done;
+      const auto& sites_of_model = models[m];
+      report(
+          "training",
+          "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[sites_of_model[0]].id),
+          models_done, models.size());
+    }
+  };
+  if (across_models) {
+    omp_set_max_active_levels(1);
+#pragma omp parallel for schedule(dynamic, 1)
+    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
+  } else {
+    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
+  }
+  for (auto& log : logs) {
+    if (log.error) std::rethrow_exception(log.error);
+    results.training.insert(results.training.end(), log.training.begin(), log.training.end());
+    results.provenance.seeds.insert(results.provenance.seeds.end(), log.seeds.begin(), log.seeds.end());
+    results.warnings.insert(results.warnings.end(), log.warnings.begin(), log.warnings.end());
+    summary.models_trained += log.trained ? 1 : 0;
+    summary.models_resumed += log.resumed ? 1 : 0;
   }
   report("training", "", models.size(), models.size());
   // Network intervals calibrated per model (pooled over the model's sites, per lead).
