@@ -278,3 +278,42 @@ TEST_F(OperationalBundle, BundleHoldsTheJobThePlanTheMembersAndTheCalibrators) {
 
 }  // namespace
 }  // namespace libseq::pipeline
+
+namespace libseq::pipeline {
+namespace {
+
+// Per-site models with one member each: more models than members, so fit_job and run_job train the two models side
+// by side on 2 threads. The bundle must still reproduce the hindcast, and fitting with 1 thread must store the same
+// networks (the forecast from either bundle is the same, bit for bit).
+TEST(OperationalBundleParallel, PerSiteModelsFittedInParallelReproduceTheHindcastWithAnyThreadCount) {
+  const fs::path scratch = test::scratch_dir("operational_bundle_parallel");
+  std::string text = job_text(catchments(), scratch / "run");
+  for (const auto& [from, to] : std::vector<std::pair<std::string, std::string>>{
+           {"members = 2", "members = 1"}, {"[training]\n", "[training]\nscope = \"per_site\"\n"}}) {
+    const auto at = text.find(from);
+    ASSERT_NE(at, std::string::npos) << from;
+    text.replace(at, from.size(), to);
+  }
+  const JobConfig job = parse_job(text, scratch / "job.toml");
+  RunOptions two, one;
+  two.threads = 2;
+  one.threads = 1;
+  const auto fit_two = fit_job(job, two, scratch / "model2.h5");
+  const auto fit_one = fit_job(job, one, scratch / "model1.h5");
+  ASSERT_EQ(fit_two.models_trained, 2u);
+  ASSERT_EQ(fit_two.training.size(), 2u);
+  EXPECT_EQ(fit_two.training[0].model, "SRN-TAR01");  // merged in model order whatever finished first
+  EXPECT_EQ(fit_two.training[1].model, "SRN-OSK02");
+  const auto hindcast = run_job(job, two).results;
+  const auto from_two = forecast_from_bundle(scratch / "model2.h5", {catchments()}, issue_time, 3, {});
+  const auto from_one = forecast_from_bundle(scratch / "model1.h5", {catchments()}, issue_time, 3, {});
+  expect_matches_hindcast(from_two, hindcast);
+  ASSERT_EQ(from_two.sites.size(), from_one.sites.size());
+  for (std::size_t i = 0; i < from_two.sites.size(); ++i) {
+    EXPECT_EQ(from_two.sites[i].quantiles, from_one.sites[i].quantiles) << from_two.sites[i].site.id;
+    EXPECT_EQ(from_two.sites[i].mean, from_one.sites[i].mean) << from_two.sites[i].site.id;
+  }
+}
+
+}  // namespace
+}  // namespace libseq::pipeline

@@ -7,6 +7,7 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <exception>
 #include <map>
 #include <set>
 #include <sstream>
@@ -311,56 +312,65 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
           ? data::make_windows(table, job.windows, data::index_range(axis, *job.periods.calibration), true)
           : std::vector<data::Window>{};
 
-  std::vector<std::string> stored_models;
-  for (std::size_t m = 0; m < models.size(); ++m) {
+  // What one model adds to the bundle and the summary, kept apart so that models can train in parallel and be
+  // merged in model order (the same bundle for any thread count); the same rule for going parallel as run_job.
+  struct FitLog {
+    io::ModelBundle part;
+    std::vector<io::TrainingRecord> training;
+    std::vector<std::string> calibration;
+    std::vector<std::string> warnings;
+    bool stored = false;
+    std::exception_ptr error;
+  };
+  std::vector<FitLog> logs(models.size());
+  auto fit_one = [&](std::size_t m, FitLog& log) {
     const auto& model_sites = models[m];
     const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
-    report("training", "model " + model_name, m, models.size());
     const std::optional<uncertainty::Ensemble> trained =
         detail::train_model(table, job, ensemble_options, all_train, all_validation, model_sites, m);
     if (!trained) {
-      summary.warnings.push_back("model " + model_name +
-                                 ": no training window with an observed target in the fit "
-                                 "period; not stored, its sites get no forecast");
-      continue;
+      log.warnings.push_back("model " + model_name +
+                             ": no training window with an observed target in the fit "
+                             "period; not stored, its sites get no forecast");
+      return;
     }
     const uncertainty::Ensemble& ensemble = *trained;
-    ++summary.models_trained;
-    stored_models.push_back(std::to_string(m));
+    log.stored = true;
 
     const std::string prefix = model_prefix(m);
     std::vector<std::string> site_ids;
     for (std::size_t s : model_sites) site_ids.push_back(panel.sites()[s].id);
-    bundle.text[prefix + "name"] = model_name;
-    bundle.text[prefix + "sites"] = join(site_ids, "\n");
-    bundle.arrays[prefix + "member_count"] =
+    log.part.text[prefix + "name"] = model_name;
+    log.part.text[prefix + "sites"] = join(site_ids, "\n");
+    log.part.arrays[prefix + "member_count"] =
         io::NamedArray::of_doubles({}, {static_cast<double>(ensemble.members().size())});
     for (std::size_t k = 0; k < ensemble.members().size(); ++k) {
       const auto& member = ensemble.members()[k];
       const io::ModelBundle network = train::to_bundle(ensemble.networks()[k], &member.summary);
       const std::string mp = member_prefix(m, k);
-      for (const auto& [key, value] : network.text) bundle.text[mp + key] = value;
-      for (const auto& [key, value] : network.arrays) bundle.arrays[mp + key] = value;
-      bundle.text[mp + "seed"] = std::to_string(member.seed);
-      bundle.arrays[mp + "windows_drawn"] = io::NamedArray::of_doubles({}, {static_cast<double>(member.windows_drawn)});
+      for (const auto& [key, value] : network.text) log.part.text[mp + key] = value;
+      for (const auto& [key, value] : network.arrays) log.part.arrays[mp + key] = value;
+      log.part.text[mp + "seed"] = std::to_string(member.seed);
+      log.part.arrays[mp + "windows_drawn"] =
+          io::NamedArray::of_doubles({}, {static_cast<double>(member.windows_drawn)});
 
       const auto& ts = member.summary;
       io::TrainingRecord record = detail::training_record(model_name, k, member);
       if (ts.termination == train::TerminationReason::diverged) {
-        summary.warnings.push_back("model " + model_name + ", member " + std::to_string(k) + ": training diverged (" +
-                                   ts.termination_detail + "); member left out of forecasts");
+        log.warnings.push_back("model " + model_name + ", member " + std::to_string(k) + ": training diverged (" +
+                               ts.termination_detail + "); member left out of forecasts");
       }
-      summary.training.push_back(std::move(record));
+      log.training.push_back(std::move(record));
     }
 
     // Calibrators on the calibration period: the same predictions, seed and CQR options as run_job.
-    if (job.calibration == CalibrationMethod::none) continue;
+    if (job.calibration == CalibrationMethod::none) return;
     detail::WindowSource calibration(table, job.windows, detail::windows_of_sites(all_calibration, model_sites));
     if (calibration.size() == 0) {
-      summary.warnings.push_back("model " + model_name +
-                                 ": no calibration window with an observed target; "
-                                 "intervals left uncalibrated");
-      continue;
+      log.warnings.push_back("model " + model_name +
+                             ": no calibration window with an observed target; "
+                             "intervals left uncalibrated");
+      return;
     }
     const auto cal_members = ensemble.predict(calibration, job.seed + 29);
     const auto cal_dist =
@@ -384,7 +394,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
         upper.push_back(score_scale.forward(cal_dist.quantiles[c * level_count + hi]));
       }
       const auto calibrator = detail::fit_interval_calibrator(observed, lower, upper, lead_of_case, coverage, per_lead);
-      write_calibrator(bundle, interval_prefix(m, i), calibrator.state());
+      write_calibrator(log.part, interval_prefix(m, i), calibrator.state());
       char label[32];
       std::snprintf(label, sizeof label, "%g", coverage);
       std::string line = "model " + model_name + ", interval " + label + ":";
@@ -398,9 +408,45 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
         }
         line += buffer;
       }
-      summary.calibration.push_back(line);
+      log.calibration.push_back(line);
     }
-    bundle.text[prefix + "calibrated"] = "true";
+    log.part.text[prefix + "calibrated"] = "true";
+  };
+  std::size_t models_done = 0;
+  auto guarded = [&](std::size_t m) {
+    try {
+      fit_one(m, logs[m]);
+    } catch (...) {
+      logs[m].error = std::current_exception();
+    }
+#pragma omp critical(runnel_progress)
+    {
+      ++models_done;
+      report("training",
+             "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[models[m][0]].id),
+             models_done, models.size());
+    }
+  };
+  if (threads > 1 && models.size() > job.members) {
+    omp_set_max_active_levels(1);
+#pragma omp parallel for schedule(dynamic, 1)
+    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
+  } else {
+    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
+  }
+  std::vector<std::string> stored_models;
+  for (std::size_t m = 0; m < models.size(); ++m) {
+    auto& log = logs[m];
+    if (log.error) std::rethrow_exception(log.error);
+    for (auto& [key, value] : log.part.text) bundle.text[key] = std::move(value);
+    for (auto& [key, value] : log.part.arrays) bundle.arrays[key] = std::move(value);
+    summary.training.insert(summary.training.end(), log.training.begin(), log.training.end());
+    summary.calibration.insert(summary.calibration.end(), log.calibration.begin(), log.calibration.end());
+    summary.warnings.insert(summary.warnings.end(), log.warnings.begin(), log.warnings.end());
+    if (log.stored) {
+      ++summary.models_trained;
+      stored_models.push_back(std::to_string(m));
+    }
   }
   report("training", "", models.size(), models.size());
   bundle.text["models"] = join(stored_models, "\n");
