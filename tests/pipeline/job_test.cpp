@@ -73,6 +73,30 @@ mc_dropout_passes = 5
   EXPECT_NE(message.find("ensemble.mc_dropout_passes: needs some dropout"), std::string::npos) << message;
 }
 
+// network.gate_bias = "chrono" sets chrono initialisation for memories as long as the window: lookback 40 + horizon
+// 2 = 42 steps; with an Elman cell it is refused naming the key.
+TEST(Job, ChronoGateBiasCoversTheWindowAndNeedsAGatedCell) {
+  const std::string base = R"(
+[data]
+files = ["a.nc"]
+[target]
+variable = "q"
+[windows]
+lookback = 40
+horizon = 2
+[periods]
+fit = "2000-01-01..2000-12-31"
+calibration = "2001-01-01..2001-06-30"
+test = "2001-07-01..2001-12-31"
+)";
+  const JobConfig standard = parse_job(base, "/jobs/job.toml");
+  EXPECT_EQ(standard.network.chrono_steps, 0u);
+  const JobConfig chrono = parse_job(base + "[network]\ncell = \"gru\"\ngate_bias = \"chrono\"\n", "/jobs/job.toml");
+  EXPECT_EQ(chrono.network.chrono_steps, 42u);
+  const std::string message = problems_of(base + "[network]\ncell = \"elman\"\ngate_bias = \"chrono\"\n");
+  EXPECT_NE(message.find("network.gate_bias"), std::string::npos) << message;
+}
+
 // docs/config.md is generated from the parser; this fails when someone changes a key without regenerating it
 // (`runnel init --reference > docs/config.md`).
 TEST(Job, ConfigReferenceInDocsIsCurrent) {

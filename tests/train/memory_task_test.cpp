@@ -96,6 +96,7 @@
 #include <cstdio>
 #include <random>
 
+#include "libseq/error.hpp"
 #include "libseq/train/trainer.hpp"
 
 namespace libseq::train {
@@ -144,12 +145,14 @@ struct Outcome {
   TrainSummary summary;
 };
 
-// LSTM gate biases: the library's (forget-gate input bias 1, others 0) or chrono initialisation (note 9).
+// LSTM gate biases: the library's standard ones (forget-gate input bias 1, others 0) or its chrono initialisation
+// (NetworkOptions::chrono_steps, note 9), which LibraryChronoBiasesAreTheFormulaAndLeaveTheWeightsAlone checks
+// against set_chrono_biases below.
 enum class LstmBiases { library, chrono };
 
-// Chrono initialisation (Tallec & Ollivier 2018, Section 3; from memory): per hidden unit j, b_f,j =
-// log(U(1, t_max − 1)) and b_i,j = −b_f,j, on the input biases (gate order i, f, g, o). The recurrent biases of these
-// gates must be 0 so that the input biases are the whole gate biases; the library initialises them so (checked).
+// Independent writing of chrono initialisation (Tallec & Ollivier 2018, Section 3; from memory): per hidden unit j,
+// b_f,j = log(U(1, t_max − 1)) and b_i,j = −b_f,j, on the input biases (gate order i, f, g, o). The recurrent biases of
+// these gates must be 0 so that the input biases are the whole gate biases; the library initialises them so (checked).
 void set_chrono_biases(nn::Network<float>& network, std::size_t hidden, std::size_t t_max, std::uint64_t seed) {
   std::mt19937_64 rng(seed);
   const auto& input_bias = network.block("layer0.input_bias");
@@ -181,19 +184,19 @@ Outcome run(nn::CellType cell, const Task& task, std::size_t lag, std::size_t ep
   options.clip_norm = 1.0;
   options.early_stopping.patience = 1000;  // run every epoch, keep the best weights
   options.diagnostic_lags = {0, short_lag, task.long_lag};
+  const bool chrono = cell == nn::CellType::lstm && lstm_biases == LstmBiases::chrono;
+  if (chrono) net.chrono_steps = task.steps;  // the library's chrono initialisation, T_max = T
   nn::Network<float> network(net);
+  if (chrono) {
+    network.initialize(options.seed);  // as the GRU below: the network's own seed, not the trainer's
+    options.initialize_network = false;
+  }
   if (cell == nn::CellType::gru) {
     network.initialize(options.seed);
     options.initialize_network = false;
     // Gate order r, z, n (as torch): rows H..2H of the input bias are the update gate's.
     const auto& bias = network.block("layer0.input_bias");
     for (std::size_t j = 0; j < net.hidden_size; ++j) network.parameters()[bias.offset + net.hidden_size + j] = 3.0f;
-  }
-  const bool chrono = cell == nn::CellType::lstm && lstm_biases == LstmBiases::chrono;
-  if (chrono) {
-    network.initialize(options.seed);
-    options.initialize_network = false;
-    set_chrono_biases(network, net.hidden_size, task.steps, 1000 + options.seed);
   }
   Outcome outcome;
   outcome.summary = Trainer<float>(options).train(network, training, &validation);
@@ -273,6 +276,50 @@ TEST(MemoryTask, ChronoInitialisedLstmRecallsFiveAndOneHundredFiftyStepsBack) {
   const Outcome long_outcome = run(nn::CellType::lstm, long_task, long_task.long_lag, 0, LstmBiases::chrono);
   EXPECT_LT(long_outcome.relative_mse, learned_below) << long_outcome.summary.full_report();
   EXPECT_GT(long_over_short(long_outcome.summary.final_gradient), 1.0) << long_outcome.summary.full_report();
+}
+
+// The library's chrono initialisation (NetworkOptions::chrono_steps) against this file's own writing of the formula
+// (set_chrono_biases: b_f = log(1 + u (T_max − 2)) = log U(1, T_max − 1), b_i = −b_f, from a generator seeded with
+// seed + 1000): every parameter equal, so the runs above test the library option. And the standard LSTM biases
+// (forget 1) are what chrono_steps = 0 gives.
+TEST(MemoryTask, LibraryChronoBiasesAreTheFormulaAndLeaveTheWeightsAlone) {
+  nn::NetworkOptions net;
+  net.cell = nn::CellType::lstm;
+  net.input_size = 2;
+  net.hidden_size = 16;
+  nn::Network<float> standard(net);
+  standard.initialize(5);
+  nn::Network<float> by_hand(net);
+  by_hand.initialize(5);
+  set_chrono_biases(by_hand, net.hidden_size, 160, 1005);
+  net.chrono_steps = 160;
+  nn::Network<float> library(net);
+  library.initialize(5);
+  ASSERT_EQ(library.parameters().size(), by_hand.parameters().size());
+  for (std::size_t i = 0; i < library.parameters().size(); ++i) {
+    EXPECT_EQ(library.parameters()[i], by_hand.parameters()[i]) << "parameter " << i;
+  }
+  const auto& bias = standard.block("layer0.input_bias");
+  for (std::size_t j = 0; j < net.hidden_size; ++j) {
+    EXPECT_EQ(standard.parameters()[bias.offset + net.hidden_size + j], 1.0f);  // forget gate
+    const float b = library.parameters()[bias.offset + net.hidden_size + j];
+    EXPECT_GE(b, 0.0f);
+    EXPECT_LT(b, static_cast<float>(std::log(159.0)) + 1e-6f);
+  }
+  // GRU (gate order r, z, n): only the update gate z gets log U(1, T_max − 1); r and n stay 0.
+  net.cell = nn::CellType::gru;
+  nn::Network<float> gru(net);
+  gru.initialize(5);
+  const auto& gru_bias = gru.block("layer0.input_bias");
+  for (std::size_t j = 0; j < net.hidden_size; ++j) {
+    EXPECT_EQ(gru.parameters()[gru_bias.offset + j], 0.0f);
+    const float z = gru.parameters()[gru_bias.offset + net.hidden_size + j];
+    EXPECT_GE(z, 0.0f);
+    EXPECT_LT(z, static_cast<float>(std::log(159.0)) + 1e-6f);
+    EXPECT_EQ(gru.parameters()[gru_bias.offset + 2 * net.hidden_size + j], 0.0f);
+  }
+  net.cell = nn::CellType::elman;
+  EXPECT_THROW(nn::Network<float>{net}, ConfigError);  // no gate to initialise
 }
 
 }  // namespace libseq::train

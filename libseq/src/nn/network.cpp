@@ -104,6 +104,12 @@ void NetworkOptions::validate() const {
       problems << "\n  network.quantile_levels[" << i << "] = " << q << ": expected strictly increasing levels";
     }
   }
+  if (chrono_steps > 0 && chrono_steps < 3) {
+    problems << "\n  network.chrono_steps = " << chrono_steps << ": expected 0 (standard biases) or at least 3";
+  }
+  if (chrono_steps > 0 && cell == CellType::elman) {
+    problems << "\n  network.chrono_steps = " << chrono_steps << ": chrono initialisation needs gates (lstm or gru)";
+  }
   const std::string text = problems.str();
   if (!text.empty()) throw ConfigError("invalid network options:" + text);
 }
@@ -167,7 +173,6 @@ class FlushSubnormals {
 #endif
 };
 
-
 template <typename Mat>
 void ensure_size(Mat& m, std::size_t rows, std::size_t cols) {
   if (static_cast<std::size_t>(m.rows()) != rows || static_cast<std::size_t>(m.cols()) != cols) {
@@ -211,11 +216,11 @@ template <typename Scalar>
 struct Network<Scalar>::Slice {
   using Mat = Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
   struct Layer {
-    Mat pre;             // T·n × G·H: input projection + biases, then the gate activations of each step; the
-                         // backward sweep overwrites step t with d loss / d (pre-activations) once t is done
-    Mat hidden;          // (T+1)·n × H: rows [0,n) the initial state, rows [(t+1)n, (t+2)n) h_t
-    Mat cell;            // LSTM: (T+1)·n × H, like hidden
-    Mat recurrent_n;     // GRU: T·n × H, U_n h̃_{t−1} + b_hn; the backward overwrites it with d loss / d (U_n h̃ + b_hn)
+    Mat pre;          // T·n × G·H: input projection + biases, then the gate activations of each step; the
+                      // backward sweep overwrites step t with d loss / d (pre-activations) once t is done
+    Mat hidden;       // (T+1)·n × H: rows [0,n) the initial state, rows [(t+1)n, (t+2)n) h_t
+    Mat cell;         // LSTM: (T+1)·n × H, like hidden
+    Mat recurrent_n;  // GRU: T·n × H, U_n h̃_{t−1} + b_hn; the backward overwrites it with d loss / d (U_n h̃ + b_hn)
     Mat hidden_dropped;  // T·n × H: h̃_{t−1} = h_{t−1} ⊙ recurrent mask (only with recurrent dropout)
     Mat input;           // T·n × D_l: dropped layer input (only when a dropout mask applies to it)
     const Scalar* input_data = nullptr;  // the layer input actually used, T·n × D_l row-major
@@ -226,15 +231,15 @@ struct Network<Scalar>::Slice {
   std::vector<std::uint8_t> mask;  // T·n: the slice's step mask, gathered (several slices and a masked batch)
   const Scalar* input_data = nullptr;
   const std::uint8_t* mask_data = nullptr;
-  Mat bias;                        // 1 × G·H: b_ih + b_hh (GRU: b_hn left out, it sits inside the reset gate)
-  Mat static_projection;           // n × G·H
-  Mat scratch;                     // n × G·H: GRU recurrent product (forward), recurrent-side gradient (backward)
-  Mat d_output, d_input;           // T·n × H, T·n × D_l: gradient wrt a layer's outputs / inputs
-  Mat dh, carry_h, carry_c, rec;   // n × H
-  Mat head_input;                  // n × H
-  Mat static_gate_sums;            // n × G·H
-  std::vector<Scalar> gradients;   // parameter gradient of this slice (several slices only)
-  std::vector<Scalar> norms_sq;    // steps × layers: squared norm of d loss / d h_t over the slice
+  Mat bias;                       // 1 × G·H: b_ih + b_hh (GRU: b_hn left out, it sits inside the reset gate)
+  Mat static_projection;          // n × G·H
+  Mat scratch;                    // n × G·H: GRU recurrent product (forward), recurrent-side gradient (backward)
+  Mat d_output, d_input;          // T·n × H, T·n × D_l: gradient wrt a layer's outputs / inputs
+  Mat dh, carry_h, carry_c, rec;  // n × H
+  Mat head_input;                 // n × H
+  Mat static_gate_sums;           // n × G·H
+  std::vector<Scalar> gradients;  // parameter gradient of this slice (several slices only)
+  std::vector<Scalar> norms_sq;   // steps × layers: squared norm of d loss / d h_t over the slice
 };
 
 template <typename Scalar>
@@ -249,12 +254,12 @@ struct Network<Scalar>::Workspace {
 
   // Dropout masks of the whole batch (one row per sequence), drawn in one fixed order before slicing so that the
   // draws do not depend on the slicing.
-  Mat input_mask;                       // B × D (empty = no input dropout this pass)
-  std::vector<Mat> recurrent_masks;     // per layer B × H (empty = none)
-  std::vector<Mat> output_masks;        // per layer B × H (empty = none)
-  Mat d_head;                           // B × outputs
+  Mat input_mask;                    // B × D (empty = no input dropout this pass)
+  std::vector<Mat> recurrent_masks;  // per layer B × H (empty = none)
+  std::vector<Mat> output_masks;     // per layer B × H (empty = none)
+  Mat d_head;                        // B × outputs
   std::vector<Slice> slices;
-  std::vector<Scalar> top_states;       // steps × B × H, assembled on demand when there are several slices
+  std::vector<Scalar> top_states;  // steps × B × H, assembled on demand when there are several slices
   bool top_states_ready = false;
   std::size_t steps = 0, batch = 0;
 };
@@ -365,8 +370,26 @@ void Network<Scalar>::initialize(std::uint64_t seed) {
     }
     for (std::size_t gate = 0; gate < g; ++gate) orthogonal(o.recurrent_weights + gate * h * h);
     // Forget-gate bias 1 (Jozefowicz et al. 2015), on the input bias; gate order i, f, g, o.
-    if (options_.cell == CellType::lstm) {
+    if (options_.cell == CellType::lstm && options_.chrono_steps == 0) {
       for (std::size_t j = 0; j < h; ++j) parameters_[o.input_bias + h + j] = Scalar(1);
+    }
+    // Chrono initialisation (Tallec & Ollivier 2018, Section 3; written from memory): b ~ log U(1, T_max − 1) per
+    // unit, so that the gate keeps a unit's state for about e^b steps. LSTM: forget gate b, input gate −b (rows 0..H
+    // and H..2H of the input bias, gate order i, f, g, o). GRU: update gate z (rows H..2H, gate order r, z, n),
+    // where h = (1 − z) n + z h_prev keeps the state as z → 1.
+    if (options_.chrono_steps > 0) {
+      std::mt19937_64 chrono(seed + 1000 + l);
+      const double span = static_cast<double>(options_.chrono_steps - 2);
+      for (std::size_t j = 0; j < h; ++j) {
+        const double u = static_cast<double>(chrono() >> 11) * 0x1.0p-53;  // [0, 1), 53 bits
+        const double b = std::log(1.0 + u * span);
+        if (options_.cell == CellType::lstm) {
+          parameters_[o.input_bias + j] = static_cast<Scalar>(-b);
+          parameters_[o.input_bias + h + j] = static_cast<Scalar>(b);
+        } else {
+          parameters_[o.input_bias + h + j] = static_cast<Scalar>(b);
+        }
+      }
     }
   }
   if (options_.static_size > 0) {
@@ -401,7 +424,6 @@ void Network<Scalar>::clear_initial_state() {
   initial_state_.clear();
 }
 
-
 template <typename Scalar>
 std::size_t Network<Scalar>::workspace_bytes() const {
   const auto& w = *work_;
@@ -409,14 +431,14 @@ std::size_t Network<Scalar>::workspace_bytes() const {
   const auto add = [&](const typename Workspace::Mat& m) { count += static_cast<std::size_t>(m.size()); };
   for (const auto& slice : w.slices) {
     for (const auto& layer : slice.layers) {
-      for (const auto* m : {&layer.pre, &layer.hidden, &layer.cell, &layer.recurrent_n, &layer.hidden_dropped,
-                            &layer.input}) {
+      for (const auto* m :
+           {&layer.pre, &layer.hidden, &layer.cell, &layer.recurrent_n, &layer.hidden_dropped, &layer.input}) {
         add(*m);
       }
     }
-    for (const auto* m : {&slice.inputs, &slice.bias, &slice.static_projection, &slice.scratch, &slice.d_output,
-                          &slice.d_input, &slice.dh, &slice.carry_h, &slice.carry_c, &slice.rec, &slice.head_input,
-                          &slice.static_gate_sums}) {
+    for (const auto* m :
+         {&slice.inputs, &slice.bias, &slice.static_projection, &slice.scratch, &slice.d_output, &slice.d_input,
+          &slice.dh, &slice.carry_h, &slice.carry_c, &slice.rec, &slice.head_input, &slice.static_gate_sums}) {
       add(*m);
     }
     count += slice.gradients.size() + slice.norms_sq.size();
@@ -920,7 +942,7 @@ void Network<Scalar>::backward_slice(Slice& sl, const SequenceBatch<Scalar>& bat
             gg = carry_c * ig * (Scalar(1) - gg.square());
             ig = tc;
             tc = carry_c * c_prev * fg * (Scalar(1) - fg);  // d(pre f)
-            carry_c = carry_c * fg;                           // d loss / d c_{t−1}
+            carry_c = carry_c * fg;                         // d loss / d c_{t−1}
             fg = tc;
             break;
           }

@@ -174,6 +174,15 @@ void read_job(ConfigReader& r, JobConfig& job) {
       r.number("network", "recurrent_dropout", 0.0, 0.0, 0.95, "", "Variational dropout on the recurrent state.");
   job.network.output_dropout =
       r.number("network", "output_dropout", 0.0, 0.0, 0.95, "", "Dropout on the last state before the head.");
+  collect(r, [&] {
+    const std::string g = r.choice("network", "gate_bias", "standard", {"standard", "chrono"},
+                                   "Gate biases at initialisation: standard (LSTM forget gate 1), or chrono "
+                                   "(Tallec & Ollivier 2018) for memories as long as the window (lstm, gru).");
+    job.network.chrono_steps = g == "chrono" ? std::max<std::size_t>(3, job.windows.sequence_steps()) : 0;
+    if (g == "chrono" && job.network.cell == nn::CellType::elman) {
+      r.problem("network.gate_bias = \"chrono\": needs a gated cell (network.cell = \"lstm\" or \"gru\")");
+    }
+  });
 
   r.section("training", "How each member is trained.");
   collect(r, [&] {

@@ -68,6 +68,10 @@ struct NetworkOptions {
   /// Dropout probabilities in [0,1): on layer-0 dynamic inputs, on the recurrent state entering U h_prev, and on
   /// each layer's output (into the next layer, and into the head).
   double input_dropout = 0.0, recurrent_dropout = 0.0, output_dropout = 0.0;
+  /// Gate biases at initialisation. 0: the standard ones (zero, LSTM forget-gate bias 1). T_max >= 3: chrono
+  /// initialisation (Tallec & Ollivier 2018) for dependencies up to T_max steps: per hidden unit b ~ log U(1, T_max
+  /// − 1) on the LSTM forget gate with the input gate at −b, or on the GRU update gate; not for Elman.
+  std::size_t chrono_steps = 0;
 
   /// @throws libseq::ConfigError listing every broken rule (key, value, expectation).
   void validate() const;
@@ -117,7 +121,9 @@ class Network {
   const NetworkOptions& options() const { return options_; }
 
   /// Glorot uniform input, static and head weights (per gate block), orthogonal recurrent blocks per gate, zero
-  /// biases except LSTM forget-gate input bias 1. Deterministic from `seed` on every platform.
+  /// biases except LSTM forget-gate input bias 1, or chrono biases (options.chrono_steps), drawn from a generator of
+  /// their own (seed + 1000) so that every weight is the same as with standard biases. Deterministic from `seed` on
+  /// every platform.
   void initialize(std::uint64_t seed);
 
   std::size_t parameter_count() const { return parameters_.size(); }
