@@ -320,7 +320,6 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
     std::vector<std::string> calibration;
     std::vector<std::string> warnings;
     bool stored = false;
-    std::exception_ptr error;
   };
   std::vector<FitLog> logs(models.size());
   auto fit_one = [&](std::size_t m, FitLog& log) {
@@ -412,32 +411,19 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
     }
     log.part.text[prefix + "calibrated"] = "true";
   };
-  std::size_t models_done = 0;
-  auto guarded = [&](std::size_t m) {
-    try {
-      fit_one(m, logs[m]);
-    } catch (...) {
-      logs[m].error = std::current_exception();
-    }
-#pragma omp critical(runnel_progress)
-    {
-      ++models_done;
-      report("training",
-             "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[models[m][0]].id),
-             models_done, models.size());
-    }
-  };
-  if (threads > 1 && models.size() > job.members) {
-    omp_set_max_active_levels(1);
-#pragma omp parallel for schedule(dynamic, 1)
-    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
-  } else {
-    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
-  }
+  std::vector<std::exception_ptr> errors;
+  detail::for_each_model(
+      models.size(), threads > 1 && models.size() > job.members, [&](std::size_t m) { fit_one(m, logs[m]); },
+      [&](std::size_t m, std::size_t finished) {
+        report("training",
+               "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[models[m][0]].id),
+               finished, models.size());
+      },
+      errors);
   std::vector<std::string> stored_models;
   for (std::size_t m = 0; m < models.size(); ++m) {
+    if (errors[m]) std::rethrow_exception(errors[m]);
     auto& log = logs[m];
-    if (log.error) std::rethrow_exception(log.error);
     for (auto& [key, value] : log.part.text) bundle.text[key] = std::move(value);
     for (auto& [key, value] : log.part.arrays) bundle.arrays[key] = std::move(value);
     summary.training.insert(summary.training.end(), log.training.begin(), log.training.end());

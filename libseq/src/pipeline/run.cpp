@@ -260,7 +260,6 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
     std::vector<std::string> warnings;
     bool trained = false;
     bool resumed = false;
-    std::exception_ptr error;
   };
   std::vector<ModelLog> logs(models.size());
   // Each model writes only its own sites' slots (raw_test, raw_selection, raw_calibration, member_blocks) and its
@@ -381,32 +380,19 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   // model at a time with its members in parallel (Ensemble::train). An OpenMP region inside another runs on one
   // thread, so a member's work never depends on which way was taken.
   const bool across_models = threads > 1 && models.size() > job.members;
-  std::size_t models_done = 0;
-  auto guarded = [&](std::size_t m) {
-    try {
-      train_one(m, logs[m]);
-    } catch (...) {
-      logs[m].error = std::current_exception();
-    }
-#pragma omp critical(runnel_progress)
-    {
-      ++models_done;
-      const auto& sites_of_model = models[m];
-      report(
-          "training",
-          "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[sites_of_model[0]].id),
-          models_done, models.size());
-    }
-  };
-  if (across_models) {
-    omp_set_max_active_levels(1);
-#pragma omp parallel for schedule(dynamic, 1)
-    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
-  } else {
-    for (std::size_t m = 0; m < models.size(); ++m) guarded(m);
+  std::vector<std::exception_ptr> errors;
+  detail::for_each_model(
+      models.size(), across_models, [&](std::size_t m) { train_one(m, logs[m]); },
+      [&](std::size_t m, std::size_t finished) {
+        report("training",
+               "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[models[m][0]].id),
+               finished, models.size());
+      },
+      errors);
+  for (std::size_t m = 0; m < models.size(); ++m) {
+    if (errors[m]) std::rethrow_exception(errors[m]);
   }
   for (auto& log : logs) {
-    if (log.error) std::rethrow_exception(log.error);
     results.training.insert(results.training.end(), log.training.begin(), log.training.end());
     results.provenance.seeds.insert(results.provenance.seeds.end(), log.seeds.begin(), log.seeds.end());
     results.warnings.insert(results.warnings.end(), log.warnings.begin(), log.warnings.end());

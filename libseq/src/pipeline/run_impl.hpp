@@ -2,7 +2,9 @@
 // Private pieces of the batch job shared by run.cpp and the operational forecast: the window source that feeds the
 // trainer from a FeatureTable, and turning ensemble members into quantiles in target units.
 
+#include <exception>
 #include <filesystem>
+#include <functional>
 #include <optional>
 #include <span>
 #include <string>
@@ -108,6 +110,13 @@ std::size_t level_position(const std::vector<double>& levels, double level);
 
 /// The sites of each model: one model over all sites (across_sites) or one per site (per_site).
 std::vector<std::vector<std::size_t>> model_sites(const JobConfig& job, std::size_t site_count);
+
+/// Runs body(m) for every model m in [0, count): side by side on the OpenMP threads when `parallel` (an OpenMP
+/// region inside body then runs on one thread), else one after another. What body(m) throws is kept in errors[m]
+/// (resized to count) for the caller to rethrow in model order; after each model, done(m, finished) runs under a
+/// lock (progress).
+void for_each_model(std::size_t count, bool parallel, const std::function<void(std::size_t)>& body,
+                    const std::function<void(std::size_t, std::size_t)>& done, std::vector<std::exception_ptr>& errors);
 
 /// The current UTC time, ISO 8601 (provenance).
 std::string now_iso();

@@ -1,3 +1,5 @@
+#include <omp.h>
+
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -202,6 +204,29 @@ std::vector<std::vector<std::size_t>> model_sites(const JobConfig& job, std::siz
     for (std::size_t s = 0; s < site_count; ++s) models.push_back({s});
   }
   return models;
+}
+
+void for_each_model(std::size_t count, bool parallel, const std::function<void(std::size_t)>& body,
+                    const std::function<void(std::size_t, std::size_t)>& done,
+                    std::vector<std::exception_ptr>& errors) {
+  errors.assign(count, nullptr);
+  std::size_t finished = 0;
+  auto one = [&](std::size_t m) {
+    try {
+      body(m);
+    } catch (...) {
+      errors[m] = std::current_exception();
+    }
+#pragma omp critical(runnel_model_done)
+    done(m, ++finished);
+  };
+  if (parallel) {
+    omp_set_max_active_levels(1);
+#pragma omp parallel for schedule(dynamic, 1)
+    for (std::size_t m = 0; m < count; ++m) one(m);
+  } else {
+    for (std::size_t m = 0; m < count; ++m) one(m);
+  }
 }
 
 std::string now_iso() {
