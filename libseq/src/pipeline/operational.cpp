@@ -324,7 +324,7 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
   std::vector<FitLog> logs(models.size());
   auto fit_one = [&](std::size_t m, FitLog& log) {
     const auto& model_sites = models[m];
-    const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
+    const std::string model_name = detail::model_name(job, panel, model_sites);
     const std::optional<uncertainty::Ensemble> trained =
         detail::train_model(table, job, ensemble_options, all_train, all_validation, model_sites, m);
     if (!trained) {
@@ -413,11 +413,9 @@ FitSummary fit_job(const JobConfig& job_in, const RunOptions& run_options, const
   };
   std::vector<std::exception_ptr> errors;
   detail::for_each_model(
-      models.size(), threads > 1 && models.size() > job.members, [&](std::size_t m) { fit_one(m, logs[m]); },
+      job, threads, models.size(), [&](std::size_t m) { fit_one(m, logs[m]); },
       [&](std::size_t m, std::size_t finished) {
-        report("training",
-               "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[models[m][0]].id),
-               finished, models.size());
+        report("training", "model " + detail::model_name(job, panel, models[m]), finished, models.size());
       },
       errors);
   std::vector<std::string> stored_models;

@@ -266,7 +266,7 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
   // own log. HDF5 (checkpoints) is not thread-safe in Debian's serial build, hence the named critical sections.
   auto train_one = [&](std::size_t m, ModelLog& log) {
     const auto& model_sites = models[m];
-    const std::string model_name = job.scope == ModelScope::across_sites ? "*" : panel.sites()[model_sites[0]].id;
+    const std::string model_name = detail::model_name(job, panel, model_sites);
     if (run_options.resume && std::filesystem::exists(checkpoint_path(m))) {
       io::RunResults done;
 #pragma omp critical(runnel_hdf5)
@@ -376,17 +376,11 @@ RunSummary run_job(const JobConfig& job_in, const RunOptions& run_options) {
 #pragma omp critical(runnel_hdf5)
     io::write_results_hdf5(checkpoint_path(m), checkpoint);
   };
-  // Parallel over models when there are more models than members (per-site models at many sites); otherwise one
-  // model at a time with its members in parallel (Ensemble::train). An OpenMP region inside another runs on one
-  // thread, so a member's work never depends on which way was taken.
-  const bool across_models = threads > 1 && models.size() > job.members;
   std::vector<std::exception_ptr> errors;
   detail::for_each_model(
-      models.size(), across_models, [&](std::size_t m) { train_one(m, logs[m]); },
+      job, threads, models.size(), [&](std::size_t m) { train_one(m, logs[m]); },
       [&](std::size_t m, std::size_t finished) {
-        report("training",
-               "model " + (job.scope == ModelScope::across_sites ? std::string("*") : panel.sites()[models[m][0]].id),
-               finished, models.size());
+        report("training", "model " + detail::model_name(job, panel, models[m]), finished, models.size());
       },
       errors);
   for (std::size_t m = 0; m < models.size(); ++m) {

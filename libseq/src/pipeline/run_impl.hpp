@@ -111,11 +111,15 @@ std::size_t level_position(const std::vector<double>& levels, double level);
 /// The sites of each model: one model over all sites (across_sites) or one per site (per_site).
 std::vector<std::vector<std::size_t>> model_sites(const JobConfig& job, std::size_t site_count);
 
-/// Runs body(m) for every model m in [0, count): side by side on the OpenMP threads when `parallel` (an OpenMP
-/// region inside body then runs on one thread), else one after another. What body(m) throws is kept in errors[m]
-/// (resized to count) for the caller to rethrow in model order; after each model, done(m, finished) runs under a
-/// lock (progress).
-void for_each_model(std::size_t count, bool parallel, const std::function<void(std::size_t)>& body,
+/// The name of a model in notes, records and progress: "*" for one model across sites, else its site's id.
+std::string model_name(const JobConfig& job, const data::Panel& panel, const std::vector<std::size_t>& sites);
+
+/// Runs body(m) for every model m in [0, count). When there are more models than members per model (per-site models
+/// at many sites) and `threads` > 1, the models run side by side on the OpenMP threads, an OpenMP region inside
+/// body (the members of Ensemble::train) then running on one thread; otherwise one after another, with the members
+/// in parallel inside. A member's work is the same either way. What body(m) throws is kept in errors[m] (resized to
+/// count) for the caller to rethrow in model order; after each model, done(m, finished) runs under a lock.
+void for_each_model(const JobConfig& job, int threads, std::size_t count, const std::function<void(std::size_t)>& body,
                     const std::function<void(std::size_t, std::size_t)>& done, std::vector<std::exception_ptr>& errors);
 
 /// The current UTC time, ISO 8601 (provenance).

@@ -206,9 +206,14 @@ std::vector<std::vector<std::size_t>> model_sites(const JobConfig& job, std::siz
   return models;
 }
 
-void for_each_model(std::size_t count, bool parallel, const std::function<void(std::size_t)>& body,
+std::string model_name(const JobConfig& job, const data::Panel& panel, const std::vector<std::size_t>& sites) {
+  return job.scope == ModelScope::across_sites ? std::string("*") : panel.sites().at(sites.at(0)).id;
+}
+
+void for_each_model(const JobConfig& job, int threads, std::size_t count, const std::function<void(std::size_t)>& body,
                     const std::function<void(std::size_t, std::size_t)>& done,
                     std::vector<std::exception_ptr>& errors) {
+  const bool parallel = threads > 1 && count > job.members;
   errors.assign(count, nullptr);
   std::size_t finished = 0;
   auto one = [&](std::size_t m) {
