@@ -20,44 +20,21 @@
 #include <utility>
 #include <vector>
 
+#include "support/cli.hpp"
 #include "support/paths.hpp"
 
 namespace {
 
 namespace fs = std::filesystem;
-
-struct CliRun {
-  int exit_code = -1;
-  std::string out;
-  std::string err;
-};
-
-std::string slurp(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::stringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-std::string quoted(const std::string& text) { return "'" + text + "'"; }  // scratch paths hold no single quote
-
-bool contains(const std::string& text, const std::string& part) { return text.find(part) != std::string::npos; }
+using libseq::test::CliRun;
+using libseq::test::contains;
+using libseq::test::quoted;
+using libseq::test::run_in;
+using libseq::test::slurp;
 
 fs::path scratch(const std::string& test) { return libseq::test::scratch_dir("cli_fit_forecast/" + test); }
 
 fs::path demo_data() { return libseq::test::source_dir() / "data-samples" / "catchments.nc"; }
-
-// Runs `runnel <arguments>` from `dir`, capturing stdout and stderr (stdin /dev/null, stderr a file).
-CliRun run_in(const fs::path& dir, const std::string& arguments) {
-  const std::string command = "cd " + quoted(dir.string()) + " && " + quoted(libseq::test::runnel_exe().string()) +
-                              " " + arguments + " >stdout.txt 2>stderr.txt </dev/null";
-  const int status = std::system(command.c_str());
-  CliRun result;
-  result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  result.out = slurp(dir / "stdout.txt");
-  result.err = slurp(dir / "stderr.txt");
-  return result;
-}
 
 // Writes the tiny job into `dir`/job.toml with its data path made absolute.
 fs::path write_tiny_job(const fs::path& dir) {
@@ -109,7 +86,7 @@ std::string iso_day_plus(const std::string& day, int days) {
 }
 
 const char* const caution_start = "CAUTION: runnel forecasts are advisory.";  // libseq/src/core/caution.cpp
-const std::set<std::string> tiny_sites{"SRN-TAR01", "SRN-OSK02"};            // [data] sites of the tiny job
+const std::set<std::string> tiny_sites{"SRN-TAR01", "SRN-OSK02"};             // [data] sites of the tiny job
 
 }  // namespace
 
@@ -172,9 +149,9 @@ TEST(CliForecast, FromTheFittedBundleWritesOneRowPerSiteAndLeadWithOrderedQuanti
   ASSERT_TRUE(fs::exists(bundle));
   const auto csv = dir / "forecast.csv";
   const std::string issue_day = "2011-04-10";  // inside the demo data (2008-01-01..2022-12-31), after the fit period
-  const CliRun r = run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " +
-                                   quoted(demo_data().string()) + " --issue-time " + issue_day +
-                                   " --horizon 2 -o " + quoted(csv.string()));
+  const CliRun r =
+      run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " + quoted(demo_data().string()) +
+                      " --issue-time " + issue_day + " --horizon 2 -o " + quoted(csv.string()));
   ASSERT_EQ(r.exit_code, 0) << r.err << r.out;
   EXPECT_TRUE(contains(r.out, caution_start)) << r.out;
   EXPECT_TRUE(contains(r.out, "issued 2011-04-10T00:00:00Z from " + bundle.string() + ": 2 site(s), 2 lead(s)"))
@@ -241,9 +218,9 @@ TEST(CliForecast, ShorterHorizonGivesOneLeadPerSite) {
   const auto dir = scratch("forecast_h1");
   const auto bundle = fit_tiny(dir);
   const auto csv = dir / "h1.csv";
-  const CliRun r = run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " +
-                                   quoted(demo_data().string()) + " --issue-time 2011-04-10 --horizon 1 -o " +
-                                   quoted(csv.string()));
+  const CliRun r =
+      run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " + quoted(demo_data().string()) +
+                      " --issue-time 2011-04-10 --horizon 1 -o " + quoted(csv.string()));
   ASSERT_EQ(r.exit_code, 0) << r.err << r.out;
   std::istringstream lines(slurp(csv));
   std::string line;
@@ -267,9 +244,9 @@ TEST(CliForecast, HorizonAboveTheBundlesExitsTwoNamingBothHorizons) {
   const auto dir = scratch("forecast_horizon");
   const auto bundle = fit_tiny(dir);
   const auto csv = dir / "forecast.csv";
-  const CliRun r = run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " +
-                                   quoted(demo_data().string()) + " --issue-time 2011-04-10 --horizon 3 -o " +
-                                   quoted(csv.string()));
+  const CliRun r =
+      run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " + quoted(demo_data().string()) +
+                      " --issue-time 2011-04-10 --horizon 3 -o " + quoted(csv.string()));
   EXPECT_EQ(r.exit_code, 2) << r.err << r.out;
   // Requested 3, bundle's windows.horizon 2 (wording of docs/commands/forecast.md).
   EXPECT_TRUE(contains(r.err, "3 is outside 1..2")) << r.err;
@@ -278,9 +255,9 @@ TEST(CliForecast, HorizonAboveTheBundlesExitsTwoNamingBothHorizons) {
   EXPECT_FALSE(fs::exists(csv)) << "a CSV was written for a rejected forecast";
 
   // Horizon 0 is outside 1..H as well (operational.hpp: ConfigError when horizon is 0).
-  const CliRun zero = run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " +
-                                      quoted(demo_data().string()) + " --issue-time 2011-04-10 --horizon 0 -o " +
-                                      quoted(csv.string()));
+  const CliRun zero =
+      run_in(dir, "forecast --bundle " + quoted(bundle.string()) + " --data " + quoted(demo_data().string()) +
+                      " --issue-time 2011-04-10 --horizon 0 -o " + quoted(csv.string()));
   EXPECT_EQ(zero.exit_code, 2) << zero.err << zero.out;
   EXPECT_TRUE(contains(zero.err, "0 is outside 1..2")) << zero.err;
   EXPECT_FALSE(fs::exists(csv));

@@ -8,24 +8,15 @@
 #include <fstream>
 #include <sstream>
 
+#include "support/cli.hpp"
 #include "support/paths.hpp"
 
 namespace {
 
-struct CliRun {
-  int exit_code = -1;
-  std::string out;
-  std::string err;
-};
-
-std::string slurp(const std::filesystem::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::stringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-std::string quoted(const std::string& text) { return "'" + text + "'"; }  // paths here hold no single quote
+using libseq::test::CliRun;
+using libseq::test::contains;
+using libseq::test::quoted;
+using libseq::test::slurp;
 
 CliRun run(const std::string& test, const std::string& arguments) {
   const auto dir = libseq::test::binary_dir() / "test-scratch" / "cli_inspect" / test;
@@ -39,8 +30,6 @@ CliRun run(const std::string& test, const std::string& arguments) {
   result.err = slurp(dir / "stderr");
   return result;
 }
-
-bool contains(const std::string& text, const std::string& part) { return text.find(part) != std::string::npos; }
 
 std::size_t line_count(const std::string& text) {
   return static_cast<std::size_t>(std::count(text.begin(), text.end(), '\n'));

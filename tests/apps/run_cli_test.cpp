@@ -4,8 +4,8 @@
 // docs/commands/README.md (0 ok, 1 usage, 2 bad input, 3 run failed). The determinism case reads results.h5 back
 // with the library's reader (module io) to compare two runs value by value.
 #include <gtest/gtest.h>
-#include <unistd.h>
 #include <sys/wait.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
@@ -19,28 +19,17 @@
 #include <vector>
 
 #include "libseq/io/results.hpp"
+#include "support/cli.hpp"
 #include "support/paths.hpp"
 
 namespace {
 
 namespace fs = std::filesystem;
-
-struct CliRun {
-  int exit_code = -1;
-  std::string out;
-  std::string err;
-};
-
-std::string slurp(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::stringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-std::string quoted(const std::string& text) { return "'" + text + "'"; }  // scratch paths hold no single quote
-
-bool contains(const std::string& text, const std::string& part) { return text.find(part) != std::string::npos; }
+using libseq::test::CliRun;
+using libseq::test::contains;
+using libseq::test::quoted;
+using libseq::test::run_in;
+using libseq::test::slurp;
 
 // A test's folder below the build tree: scratch() empties it, scratch_path() only names it.
 // (the same name scratch_dir() gives it, process id included).
@@ -48,19 +37,6 @@ fs::path scratch_path(const std::string& test) {
   return libseq::test::binary_dir() / "test-scratch" / ("cli_run/" + test + "-" + std::to_string(::getpid()));
 }
 fs::path scratch(const std::string& test) { return libseq::test::scratch_dir("cli_run/" + test); }
-
-// Runs `runnel <arguments>` from `dir` (the working directory matters for init's default output name), capturing
-// stdout and stderr; stdin is /dev/null and stderr a file, so progress comes as plain log lines.
-CliRun run_in(const fs::path& dir, const std::string& arguments) {
-  const std::string command = "cd " + quoted(dir.string()) + " && " + quoted(libseq::test::runnel_exe().string()) +
-                              " " + arguments + " >stdout.txt 2>stderr.txt </dev/null";
-  const int status = std::system(command.c_str());
-  CliRun result;
-  result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  result.out = slurp(dir / "stdout.txt");
-  result.err = slurp(dir / "stderr.txt");
-  return result;
-}
 
 // A text edit of the tiny job; `from` must occur in it, so that an edit never silently does nothing.
 using Edit = std::pair<std::string, std::string>;
@@ -70,7 +46,8 @@ using Edit = std::pair<std::string, std::string>;
 fs::path write_tiny_job(const fs::path& dir, const std::vector<Edit>& edits = {}) {
   std::string text = slurp(libseq::test::source_dir() / "tests/apps/data/tiny_catchments.toml");
   if (text.empty()) throw std::runtime_error("tests/apps/data/tiny_catchments.toml is missing or empty");
-  std::vector<Edit> all{{"\"../../../data-samples/", "\"" + (libseq::test::source_dir() / "data-samples").string() + "/"}};
+  std::vector<Edit> all{
+      {"\"../../../data-samples/", "\"" + (libseq::test::source_dir() / "data-samples").string() + "/"}};
   all.insert(all.end(), edits.begin(), edits.end());
   for (const auto& [from, to] : all) {
     const auto at = text.find(from);
@@ -167,8 +144,9 @@ TEST(CliRun, WrongTypeExitsTwoNamingTheKeyAndTheExpectedType) {
 TEST(CliRun, OverlappingPeriodsExitTwoNamingBothKeys) {
   const CliRun r = run_tiny("overlap", {{"test = \"2010-07-01..", "test = \"2010-06-01.."}});
   EXPECT_EQ(r.exit_code, 2);
-  EXPECT_TRUE(contains(r.err, "periods.test: period 2010-06-01T00:00:00Z..2010-09-30T23:59:59Z overlaps "
-                              "periods.validation"))
+  EXPECT_TRUE(contains(r.err,
+                       "periods.test: period 2010-06-01T00:00:00Z..2010-09-30T23:59:59Z overlaps "
+                       "periods.validation"))
       << r.err;
   EXPECT_TRUE(contains(r.err, "periods must be disjoint")) << r.err;
   EXPECT_FALSE(fs::exists(scratch_path("overlap") / "tiny-output")) << "outputs were written for a rejected job";
@@ -177,14 +155,16 @@ TEST(CliRun, OverlappingPeriodsExitTwoNamingBothKeys) {
 TEST(CliRun, PeriodOutsideTheDataExitsTwoNamingTheKeyAndTheDataRange) {
   const CliRun r = run_tiny("outside", {{"test = \"2010-07-01..2010-09-30\"", "test = \"2030-01-01..2030-03-31\""}});
   EXPECT_EQ(r.exit_code, 2);
-  EXPECT_TRUE(contains(r.err, "periods.test: period 2030-01-01T00:00:00Z..2030-03-31T23:59:59Z has no time step in "
-                              "the data (data cover 2008-01-01T00:00:00Z..2022-12-31T00:00:00Z)"))
+  EXPECT_TRUE(contains(r.err,
+                       "periods.test: period 2030-01-01T00:00:00Z..2030-03-31T23:59:59Z has no time step in "
+                       "the data (data cover 2008-01-01T00:00:00Z..2022-12-31T00:00:00Z)"))
       << r.err;
 }
 
 TEST(CliRun, InputMissingFromTheFileExitsTwoNamingTheVariableAndTheFile) {
-  const CliRun r = run_tiny("missing_input", {{"dynamic = [\"precipitation\", \"air_temperature\"]",
-                                               "dynamic = [\"precipitation\", \"snowfall\"]"}});
+  const CliRun r =
+      run_tiny("missing_input",
+               {{"dynamic = [\"precipitation\", \"air_temperature\"]", "dynamic = [\"precipitation\", \"snowfall\"]"}});
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_TRUE(contains(r.err, "'snowfall'")) << r.err;
   EXPECT_TRUE(contains(r.err, "data-samples/catchments.nc")) << r.err;
@@ -193,8 +173,9 @@ TEST(CliRun, InputMissingFromTheFileExitsTwoNamingTheVariableAndTheFile) {
 
 // run.hpp promises a ConfigError listing every input that does not fit the data, each with its key.
 TEST(CliRun, InputsMissingFromTheFileAreReportedTogetherEachWithItsKey) {
-  const CliRun r = run_tiny("missing_inputs", {{"dynamic = [\"precipitation\", \"air_temperature\"]",
-                                                "dynamic = [\"precipitation\", \"snowfall\"]\nstatic = [\"depth_m\"]"}});
+  const CliRun r =
+      run_tiny("missing_inputs", {{"dynamic = [\"precipitation\", \"air_temperature\"]",
+                                   "dynamic = [\"precipitation\", \"snowfall\"]\nstatic = [\"depth_m\"]"}});
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_TRUE(contains(r.err, "inputs.dynamic")) << r.err;
   EXPECT_TRUE(contains(r.err, "snowfall")) << r.err;
@@ -209,19 +190,19 @@ TEST(CliRun, SeveralProblemsAreReportedTogetherEachNamingItsKey) {
                                         {"members = 2", "membrs = 2"}});
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_TRUE(contains(r.err, "4 problem(s) in the job file")) << r.err;
-  for (const char* part : {"network.hiden: unknown key (did you mean 'hidden'?)",
-                           "training.epochs: expected an integer, got a string",
-                           "network.cell: 'lstn' is not one of elman | lstm | gru (did you mean 'lstm'?)",
-                           "ensemble.membrs: unknown key (did you mean 'members'?)"}) {
+  for (const char* part :
+       {"network.hiden: unknown key (did you mean 'hidden'?)", "training.epochs: expected an integer, got a string",
+        "network.cell: 'lstn' is not one of elman | lstm | gru (did you mean 'lstm'?)",
+        "ensemble.membrs: unknown key (did you mean 'members'?)"}) {
     EXPECT_TRUE(contains(r.err, part)) << part << "\n" << r.err;
   }
 }
 
 TEST(CliRun, MissingDataFileExitsTwoNamingTheResolvedPath) {
   const auto dir = scratch("missing_data");
-  const auto job = write_tiny_job(dir, {{"files = [\"" + (libseq::test::source_dir() / "data-samples").string() +
-                                             "/catchments.nc\"]",
-                                         "files = [\"absent.nc\"]"}});
+  const auto job = write_tiny_job(
+      dir, {{"files = [\"" + (libseq::test::source_dir() / "data-samples").string() + "/catchments.nc\"]",
+             "files = [\"absent.nc\"]"}});
   const CliRun r = run_in(dir, "run -q " + quoted(job.string()));
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_EQ(line_count(r.err), 1u) << r.err;
@@ -341,7 +322,8 @@ void expect_identical_across_threads(const std::string& test, const std::vector<
   for (int threads : {1, 2}) {
     const auto dir = scratch(test + "_t" + std::to_string(threads));
     const auto job = write_tiny_job(dir, edits);
-    const CliRun r = run_in(dir, "run -q --seed 4242 --threads " + std::to_string(threads) + " " + quoted(job.string()));
+    const CliRun r =
+        run_in(dir, "run -q --seed 4242 --threads " + std::to_string(threads) + " " + quoted(job.string()));
     ASSERT_EQ(r.exit_code, 0) << r.err;
     runs.push_back(libseq::io::read_results_hdf5(dir / "tiny-output" / "results.h5"));
     EXPECT_EQ(runs.back().provenance.threads, threads) << "--threads did not reach the run";
@@ -406,10 +388,11 @@ TEST(CliRun, SameSeedGivesIdenticalResultsWhenPerSiteModelsTrainInParallel) {
 // once the raw intervals are too narrow, outside the bound.
 TEST(CliRun, AdaptiveCalibrationKeepsTheLongRunMiscoverageBoundOfEachSite) {
   const auto dir = scratch("adaptive");
-  const auto job = write_tiny_job(
-      dir, {{"horizon = 2", "horizon = 1"},
-            {"test = \"2010-07-01..2010-09-30\"", "test = \"2010-07-01..2012-06-30\""},
-            {"[baselines]", "[calibration]\nmethod = \"adaptive\"\nadaptive_step = 0.05\n\n[scoring]\nquantiles = "
+  const auto job =
+      write_tiny_job(dir, {{"horizon = 2", "horizon = 1"},
+                           {"test = \"2010-07-01..2010-09-30\"", "test = \"2010-07-01..2012-06-30\""},
+                           {"[baselines]",
+                            "[calibration]\nmethod = \"adaptive\"\nadaptive_step = 0.05\n\n[scoring]\nquantiles = "
                             "[0.05, 0.25, 0.5, 0.75, 0.95]\nintervals = [0.9]\n\n[baselines]"}});
   const auto run = run_in(dir, "run -q " + quoted(job.string()));
   ASSERT_EQ(run.exit_code, 0) << run.err;

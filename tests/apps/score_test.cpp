@@ -6,28 +6,16 @@
 #include <fstream>
 
 #include "libseq/io/results.hpp"
+#include "support/cli.hpp"
 #include "support/paths.hpp"
 
 namespace {
 
 namespace fs = std::filesystem;
+using libseq::test::CliRun;
+using libseq::test::slurp;
 
-struct CliRun {
-  int exit_code = -1;
-  std::string out, err;
-};
-
-std::string slurp(const fs::path& path) {
-  std::ifstream in(path);
-  return std::string((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
-}
-
-CliRun runnel(const fs::path& dir, const std::string& arguments) {
-  const std::string command = "cd '" + dir.string() + "' && '" + libseq::test::runnel_exe().string() + "' " +
-                              arguments + " >stdout.txt 2>stderr.txt </dev/null";
-  const int status = std::system(command.c_str());
-  return {WIFEXITED(status) ? WEXITSTATUS(status) : -1, slurp(dir / "stdout.txt"), slurp(dir / "stderr.txt")};
-}
+CliRun runnel(const fs::path& dir, const std::string& arguments) { return libseq::test::run_in(dir, arguments); }
 
 // A small results file: one site, two methods, 4 daily issues, one lead, quantiles 0.05/0.5/0.95.
 fs::path sample_results(const fs::path& dir) {
@@ -74,8 +62,9 @@ double metric(const libseq::io::RunResults& r, const std::string& method, const 
 TEST(CliScore, RescoresASubPeriodWithTheRequestedMetrics) {
   const fs::path dir = libseq::test::scratch_dir("cli_score");
   sample_results(dir);
-  const CliRun r = runnel(dir, "score results.h5 --period 2000-01-03..2000-01-04 --metric mae --metric coverage "
-                               "--interval 0.9 -o rescored.h5");
+  const CliRun r = runnel(dir,
+                          "score results.h5 --period 2000-01-03..2000-01-04 --metric mae --metric coverage "
+                          "--interval 0.9 -o rescored.h5");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   EXPECT_NE(r.out.find("CAUTION"), std::string::npos);
   const auto rescored = libseq::io::read_results_hdf5(dir / "rescored.h5");
